@@ -1,0 +1,332 @@
+"""HDF5 run records: the only module that touches h5py.
+
+Layout (format_version 1; documented for users in README.md, "Run record"):
+
+    /time_s                                 [sample]            s
+    /joints/<joint>/angle_rad               [sample]            rad
+    /joints/<joint>/speed_rad_s             [sample]            rad/s
+    /joints/<joint>/torque_nm               [sample]            N m, delivered at the joint output
+    /joints/<joint>/torque_command_nm       [sample]            N m, asked for before clamping
+    /joints/<joint>/saturated               [sample]            1 where the clamp was active
+    /feet/<leg>/force_n                     [sample, 3]         N, ground on foot, world frame
+    /feet/<leg>/contact                     [sample]            1 when the foot touches ground
+    /base/position_m                        [sample, 3]         m, base link frame origin
+    /base/orientation_xyzw                  [sample, 4]         unit quaternion
+    /base/velocity_m_s                      [sample, 3]         m/s, world frame
+    /base/angular_velocity_rad_s            [sample, 3]         rad/s, world frame
+    /histograms/<joint>/time_s              [torque_bin, speed_bin]   s at each level, every step
+    /histograms/<joint>/torque_edges_nm     [torque_bin + 1]
+    /histograms/<joint>/speed_edges_rad_s   [speed_bin + 1]
+    /summary/<joint>                        attributes: exact per-step statistics
+
+Root attributes: format_version, tool_version, status, status_detail, scenario_toml,
+model_toml, time_step_s, sample_period_s, decimation, seed, engine_version, total_mass_kg,
+joint_names, leg_names, axis_convention. Further groups (phases, events, segments) may be
+added by the runner with :meth:`RecordWriter.append` and :meth:`RecordWriter.put`.
+
+Writing is atomic: data go to a temporary file beside the target, renamed on success.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from types import TracebackType
+from typing import Any
+
+import h5py
+import numpy as np
+
+from sim.errors import RecordError
+
+FORMAT_VERSION = 1
+STATUSES = ("completed", "fell", "diverged", "interrupted")
+AXIS_CONVENTION = "sample-major: series are [sample] or [sample, component]"
+
+UNITS = {
+    "time_s": "s", "angle_rad": "rad", "speed_rad_s": "rad/s", "torque_nm": "N m",
+    "torque_command_nm": "N m", "force_n": "N", "position_m": "m", "orientation_xyzw": "1",
+    "velocity_m_s": "m/s", "angular_velocity_rad_s": "rad/s", "saturated": "1", "contact": "1",
+    "torque_edges_nm": "N m", "speed_edges_rad_s": "rad/s",
+}
+
+_CHUNK_ROWS = 4096
+
+
+def _unit_for(name: str) -> str:
+    return UNITS.get(name.rsplit("/", 1)[-1], "")
+
+
+class RecordWriter:
+    """Streams a run into an HDF5 record with flat memory use.
+
+    Series are appended block by block (``append``); histograms and summary statistics are
+    accumulated from every simulation step (``accumulate``) whatever the series decimation.
+    Use as a context manager; on an exception the temporary file is removed unless
+    :meth:`finish` was called.
+    """
+
+    def __init__(self, path: str | Path, joint_names: Sequence[str],
+                 torque_edges_nm: Mapping[str, np.ndarray],
+                 speed_edges_rad_s: Mapping[str, np.ndarray],
+                 attrs: Mapping[str, Any], compression: int = 4):
+        self.path = Path(path)
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        self.tmp = self.path.with_name(f".{self.path.name}.{os.getpid()}.tmp")
+        self.joint_names = list(joint_names)
+        self._compression = compression
+        self._f = h5py.File(self.tmp, "w", libver=("earliest", "v110"), track_order=False)
+        self._done = False
+        for k, v in attrs.items():
+            self._f.attrs[k] = v
+        self._f.attrs["format_version"] = FORMAT_VERSION
+        self._f.attrs["axis_convention"] = AXIS_CONVENTION
+        self._f.attrs["joint_names"] = np.array(self.joint_names, dtype=h5py.string_dtype())
+        self._tedges = {j: np.asarray(torque_edges_nm[j], float) for j in self.joint_names}
+        self._sedges = {j: np.asarray(speed_edges_rad_s[j], float) for j in self.joint_names}
+        self._hist = {j: np.zeros((len(self._tedges[j]) - 1, len(self._sedges[j]) - 1))
+                      for j in self.joint_names}
+        n = len(self.joint_names)
+        self._peak_t = np.zeros(n)
+        self._peak_w = np.zeros(n)
+        self._sum_t2 = np.zeros(n)
+        self._sum_t = np.zeros(n)
+        self._sat = np.zeros(n)
+        self._overflow = np.zeros(n)
+        self._steps = 0
+        self._dt_total = 0.0
+
+    # -- series -----------------------------------------------------------------------------
+    def append(self, name: str, data: np.ndarray, dtype: str = "f8") -> None:
+        """Append rows to dataset ``name`` (created on first use, chunked and compressed)."""
+        data = np.asarray(data, dtype=dtype)
+        if name in self._f:
+            ds = self._f[name]
+            n0 = ds.shape[0]
+            ds.resize(n0 + data.shape[0], axis=0)
+            ds[n0:] = data
+        else:
+            chunks = (min(_CHUNK_ROWS, max(1, data.shape[0])), *data.shape[1:])
+            ds = self._f.create_dataset(
+                name, data=data, maxshape=(None, *data.shape[1:]), chunks=chunks,
+                compression="gzip", compression_opts=self._compression, shuffle=True,
+                track_times=False)
+            unit = _unit_for(name)
+            if unit:
+                ds.attrs["unit"] = unit
+
+    def put(self, name: str, data: Any, **attrs: Any) -> None:
+        """Write a small fixed dataset (events, segment tables) in one go."""
+        arr = np.asarray(data)
+        if arr.dtype.kind == "U":
+            arr = arr.astype(h5py.string_dtype())
+        ds = self._f.create_dataset(name, data=arr, track_times=False)
+        unit = _unit_for(name)
+        if unit:
+            ds.attrs["unit"] = unit
+        for k, v in attrs.items():
+            ds.attrs[k] = v
+
+    # -- every-step statistics --------------------------------------------------------------
+    def accumulate(self, torque_nm: np.ndarray, speed_rad_s: np.ndarray,
+                   saturated: np.ndarray, dt: float) -> None:
+        """Add a block of steps, ``[step, joint]`` arrays, each step lasting ``dt`` seconds."""
+        t = np.asarray(torque_nm, float)
+        w = np.asarray(speed_rad_s, float)
+        if t.size == 0:
+            return
+        self._steps += t.shape[0]
+        self._dt_total += dt * t.shape[0]
+        np.maximum(self._peak_t, np.abs(t).max(axis=0), out=self._peak_t)
+        np.maximum(self._peak_w, np.abs(w).max(axis=0), out=self._peak_w)
+        self._sum_t2 += (t * t).sum(axis=0) * dt
+        self._sum_t += t.sum(axis=0) * dt
+        self._sat += np.asarray(saturated, float).sum(axis=0) * dt
+        for k, j in enumerate(self.joint_names):
+            te, se = self._tedges[j], self._sedges[j]
+            it = np.clip(np.searchsorted(te, t[:, k], side="right") - 1, 0, len(te) - 2)
+            iw = np.clip(np.searchsorted(se, w[:, k], side="right") - 1, 0, len(se) - 2)
+            out = ((t[:, k] < te[0]) | (t[:, k] > te[-1]) | (w[:, k] < se[0]) | (w[:, k] > se[-1]))
+            self._overflow[k] += out.sum() * dt
+            nbin_w = len(se) - 1
+            counts = np.bincount(it * nbin_w + iw, minlength=self._hist[j].size)
+            self._hist[j] += counts.reshape(self._hist[j].shape) * dt
+
+    # -- closing ----------------------------------------------------------------------------
+    def finish(self, status: str, detail: str = "", **attrs: Any) -> Path:
+        """Write histograms, summary and status, close and rename into place."""
+        if status not in STATUSES:
+            raise ValueError(f"status must be one of {STATUSES}")
+        f = self._f
+        dur = self._dt_total
+        for k, j in enumerate(self.joint_names):
+            g = f.require_group(f"histograms/{j}")
+            for name, arr in (("time_s", self._hist[j]), ("torque_edges_nm", self._tedges[j]),
+                              ("speed_edges_rad_s", self._sedges[j])):
+                ds = g.create_dataset(name, data=arr, track_times=False)
+                ds.attrs["unit"] = _unit_for(name)
+            g["time_s"].attrs["axes"] = "[torque_bin, speed_bin]"
+            g.attrs["overflow_s"] = self._overflow[k]
+            s = f.require_group(f"summary/{j}")
+            s.attrs["peak_torque_nm"] = self._peak_t[k]
+            s.attrs["rms_torque_nm"] = np.sqrt(self._sum_t2[k] / dur) if dur > 0 else 0.0
+            s.attrs["mean_torque_nm"] = self._sum_t[k] / dur if dur > 0 else 0.0
+            s.attrs["peak_speed_rad_s"] = self._peak_w[k]
+            s.attrs["saturated_s"] = self._sat[k]
+            s.attrs["duration_s"] = dur
+        f.attrs["status"] = status
+        f.attrs["status_detail"] = detail
+        f.attrs["steps"] = self._steps
+        for k, v in attrs.items():
+            f.attrs[k] = v
+        f.close()
+        os.replace(self.tmp, self.path)
+        self._done = True
+        return self.path
+
+    def abort(self) -> None:
+        """Close and delete the temporary file (nothing is left behind)."""
+        try:
+            self._f.close()
+        finally:
+            self.tmp.unlink(missing_ok=True)
+            self._done = True
+
+    def __enter__(self) -> RecordWriter:
+        return self
+
+    def __exit__(self, et: type[BaseException] | None, ev: BaseException | None,
+                 tb: TracebackType | None) -> None:
+        if not self._done:
+            self.abort()
+
+
+@dataclass(frozen=True)
+class JointSummary:
+    peak_torque_nm: float
+    rms_torque_nm: float
+    mean_torque_nm: float
+    peak_speed_rad_s: float
+    saturated_s: float
+    duration_s: float
+
+
+class RunRecord:
+    """Read access to a record. Use :func:`open_record`; arrays are read on demand."""
+
+    def __init__(self, path: str | Path):
+        self.path = Path(path)
+        if not self.path.is_file():
+            raise RecordError(str(self.path), None, "an existing run record (no such file)")
+        try:
+            self._f = h5py.File(self.path, "r")
+        except OSError:
+            raise RecordError(str(self.path), None, "an HDF5 run record written by gaitload") from None
+        ver = self._f.attrs.get("format_version")
+        if ver is None:
+            self._f.close()
+            raise RecordError(str(self.path), "format_version",
+                              "a gaitload run record (attribute missing)")
+        if int(ver) != FORMAT_VERSION:
+            self._f.close()
+            raise RecordError(str(self.path), "format_version",
+                              f"format version {FORMAT_VERSION}", int(ver))
+
+    # metadata
+    @property
+    def attrs(self) -> dict[str, Any]:
+        out = {}
+        for k, v in self._f.attrs.items():
+            if isinstance(v, bytes):
+                v = v.decode()
+            elif isinstance(v, np.ndarray) and v.dtype.kind in "OS":
+                v = [x.decode() if isinstance(x, bytes) else str(x) for x in v]
+            elif isinstance(v, np.generic):
+                v = v.item()
+            out[k] = v
+        return out
+
+    @property
+    def status(self) -> str:
+        return str(self.attrs["status"])
+
+    @property
+    def joint_names(self) -> list[str]:
+        return list(self.attrs["joint_names"])
+
+    @property
+    def n_samples(self) -> int:
+        return int(self._f["time_s"].shape[0]) if "time_s" in self._f else 0
+
+    @property
+    def duration_s(self) -> float:
+        """Simulated time covered by the every-step statistics."""
+        j = self.joint_names[0]
+        return float(self._f[f"summary/{j}"].attrs["duration_s"])
+
+    def has(self, name: str) -> bool:
+        return name in self._f
+
+    def require_completed(self, allow_failed: bool = False) -> None:
+        if self.status != "completed" and not allow_failed:
+            raise RecordError(str(self.path), "status",
+                              "a completed run (use --allow-failed to read it anyway)",
+                              self.status)
+
+    def check_joint(self, joint: str) -> None:
+        if joint not in self.joint_names:
+            raise RecordError(str(self.path), joint,
+                              "a joint of this record: " + ", ".join(self.joint_names))
+
+    # data
+    def read(self, name: str, start: int = 0, stop: int | None = None) -> np.ndarray:
+        """Read a dataset (or a row range of it) into memory."""
+        if name not in self._f:
+            raise RecordError(str(self.path), name, "this dataset in the record (missing)")
+        ds = self._f[name]
+        if ds.ndim == 0:
+            return np.asarray(ds[()])
+        return np.asarray(ds[start:stop])
+
+    def series(self, joint: str, quantity: str) -> np.ndarray:
+        """``quantity`` is angle_rad, speed_rad_s, torque_nm, torque_command_nm or saturated."""
+        self.check_joint(joint)
+        return self.read(f"joints/{joint}/{quantity}")
+
+    def iter_chunks(self, names: Sequence[str], rows: int = 262144
+                    ) -> Iterator[tuple[int, list[np.ndarray]]]:
+        """Yield ``(start_row, [array per name])`` over the sample axis, ``rows`` at a time."""
+        n = self.n_samples
+        for name in names:
+            if name not in self._f:
+                raise RecordError(str(self.path), name, "this dataset in the record (missing)")
+        for start in range(0, n, rows):
+            yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
+
+    def histogram(self, joint: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """``(time_s[torque_bin, speed_bin], torque_edges_nm, speed_edges_rad_s)``."""
+        self.check_joint(joint)
+        g = self._f[f"histograms/{joint}"]
+        return (np.asarray(g["time_s"]), np.asarray(g["torque_edges_nm"]),
+                np.asarray(g["speed_edges_rad_s"]))
+
+    def summary(self, joint: str) -> JointSummary:
+        self.check_joint(joint)
+        a = self._f[f"summary/{joint}"].attrs
+        return JointSummary(**{k: float(a[k]) for k in JointSummary.__dataclass_fields__})
+
+    def close(self) -> None:
+        self._f.close()
+
+    def __enter__(self) -> RunRecord:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+
+def open_record(path: str | Path) -> RunRecord:
+    """Open a run record for reading; raises :class:`RecordError` if it is not one."""
+    return RunRecord(path)
