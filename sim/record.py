@@ -15,6 +15,7 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /base/velocity_m_s                      [sample, 3]         m/s, world frame
     /base/angular_velocity_rad_s            [sample, 3]         rad/s, world frame
     /histograms/<joint>/time_s              [torque_bin, speed_bin]   s at each level, every step
+    /histograms/<joint>/revolutions         [torque_bin, speed_bin]   exact sum |speed| dt / 2 pi
     /histograms/<joint>/torque_edges_nm     [torque_bin + 1]
     /histograms/<joint>/speed_edges_rad_s   [speed_bin + 1]
     /summary/<joint>                        attributes: exact per-step statistics
@@ -49,7 +50,7 @@ UNITS = {
     "time_s": "s", "angle_rad": "rad", "speed_rad_s": "rad/s", "torque_nm": "N m",
     "torque_command_nm": "N m", "force_n": "N", "position_m": "m", "orientation_xyzw": "1",
     "velocity_m_s": "m/s", "angular_velocity_rad_s": "rad/s", "saturated": "1", "contact": "1",
-    "torque_edges_nm": "N m", "speed_edges_rad_s": "rad/s",
+    "torque_edges_nm": "N m", "speed_edges_rad_s": "rad/s", "revolutions": "rev",
 }
 
 _CHUNK_ROWS = 4096
@@ -88,6 +89,7 @@ class RecordWriter:
         self._sedges = {j: np.asarray(speed_edges_rad_s[j], float) for j in self.joint_names}
         self._hist = {j: np.zeros((len(self._tedges[j]) - 1, len(self._sedges[j]) - 1))
                       for j in self.joint_names}
+        self._revs = {j: np.zeros_like(h) for j, h in self._hist.items()}
         n = len(self.joint_names)
         self._peak_t = np.zeros(n)
         self._peak_w = np.zeros(n)
@@ -151,8 +153,11 @@ class RecordWriter:
             out = ((t[:, k] < te[0]) | (t[:, k] > te[-1]) | (w[:, k] < se[0]) | (w[:, k] > se[-1]))
             self._overflow[k] += out.sum() * dt
             nbin_w = len(se) - 1
-            counts = np.bincount(it * nbin_w + iw, minlength=self._hist[j].size)
+            flat = it * nbin_w + iw
+            counts = np.bincount(flat, minlength=self._hist[j].size)
             self._hist[j] += counts.reshape(self._hist[j].shape) * dt
+            revs = np.bincount(flat, weights=np.abs(w[:, k]), minlength=self._hist[j].size)
+            self._revs[j] += revs.reshape(self._hist[j].shape) * (dt / (2.0 * np.pi))
 
     # -- closing ----------------------------------------------------------------------------
     def finish(self, status: str, detail: str = "", **attrs: Any) -> Path:
@@ -163,11 +168,13 @@ class RecordWriter:
         dur = self._dt_total
         for k, j in enumerate(self.joint_names):
             g = f.require_group(f"histograms/{j}")
-            for name, arr in (("time_s", self._hist[j]), ("torque_edges_nm", self._tedges[j]),
+            for name, arr in (("time_s", self._hist[j]), ("revolutions", self._revs[j]),
+                              ("torque_edges_nm", self._tedges[j]),
                               ("speed_edges_rad_s", self._sedges[j])):
                 ds = g.create_dataset(name, data=arr, track_times=False)
                 ds.attrs["unit"] = _unit_for(name)
             g["time_s"].attrs["axes"] = "[torque_bin, speed_bin]"
+            g["revolutions"].attrs["axes"] = "[torque_bin, speed_bin]"
             g.attrs["overflow_s"] = self._overflow[k]
             s = f.require_group(f"summary/{j}")
             s.attrs["peak_torque_nm"] = self._peak_t[k]
@@ -305,12 +312,16 @@ class RunRecord:
         for start in range(0, n, rows):
             yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
 
-    def histogram(self, joint: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """``(time_s[torque_bin, speed_bin], torque_edges_nm, speed_edges_rad_s)``."""
+    def histogram(self, joint: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """``(time_s, revolutions, torque_edges_nm, speed_edges_rad_s)``.
+
+        ``time_s`` and ``revolutions`` are ``[torque_bin, speed_bin]``; revolutions are the
+        exact per-step sums of |speed| dt / 2 pi falling in each bin (not bin centres).
+        """
         self.check_joint(joint)
         g = self._f[f"histograms/{joint}"]
-        return (np.asarray(g["time_s"]), np.asarray(g["torque_edges_nm"]),
-                np.asarray(g["speed_edges_rad_s"]))
+        return (np.asarray(g["time_s"]), np.asarray(g["revolutions"]),
+                np.asarray(g["torque_edges_nm"]), np.asarray(g["speed_edges_rad_s"]))
 
     def summary(self, joint: str) -> JointSummary:
         self.check_joint(joint)
