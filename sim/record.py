@@ -16,6 +16,8 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /base/angular_velocity_rad_s            [sample, 3]         rad/s, world frame
     /histograms/<joint>/time_s              [torque_bin, speed_bin]   s at each level, every step
     /histograms/<joint>/revolutions         [torque_bin, speed_bin]   exact sum |speed| dt / 2 pi
+    /histograms/<joint>/torque_revolutions_nm [torque_bin, speed_bin] sum torque |speed| dt / 2 pi
+    /histograms/<joint>/torque_time_nm_s    [torque_bin, speed_bin]   sum torque dt
     /histograms/<joint>/torque_edges_nm     [torque_bin + 1]
     /histograms/<joint>/speed_edges_rad_s   [speed_bin + 1]
     /summary/<joint>                        attributes: exact per-step statistics
@@ -51,6 +53,7 @@ UNITS = {
     "torque_command_nm": "N m", "force_n": "N", "position_m": "m", "orientation_xyzw": "1",
     "velocity_m_s": "m/s", "angular_velocity_rad_s": "rad/s", "saturated": "1", "contact": "1",
     "torque_edges_nm": "N m", "speed_edges_rad_s": "rad/s", "revolutions": "rev",
+    "torque_revolutions_nm": "N m rev", "torque_time_nm_s": "N m s",
 }
 
 _CHUNK_ROWS = 4096
@@ -90,6 +93,8 @@ class RecordWriter:
         self._hist = {j: np.zeros((len(self._tedges[j]) - 1, len(self._sedges[j]) - 1))
                       for j in self.joint_names}
         self._revs = {j: np.zeros_like(h) for j, h in self._hist.items()}
+        self._trevs = {j: np.zeros_like(h) for j, h in self._hist.items()}
+        self._ttime = {j: np.zeros_like(h) for j, h in self._hist.items()}
         n = len(self.joint_names)
         self._peak_t = np.zeros(n)
         self._peak_w = np.zeros(n)
@@ -158,6 +163,11 @@ class RecordWriter:
             self._hist[j] += counts.reshape(self._hist[j].shape) * dt
             revs = np.bincount(flat, weights=np.abs(w[:, k]), minlength=self._hist[j].size)
             self._revs[j] += revs.reshape(self._hist[j].shape) * (dt / (2.0 * np.pi))
+            trev = np.bincount(flat, weights=t[:, k] * np.abs(w[:, k]),
+                               minlength=self._hist[j].size)
+            self._trevs[j] += trev.reshape(self._hist[j].shape) * (dt / (2.0 * np.pi))
+            ttime = np.bincount(flat, weights=t[:, k], minlength=self._hist[j].size)
+            self._ttime[j] += ttime.reshape(self._hist[j].shape) * dt
 
     # -- closing ----------------------------------------------------------------------------
     def finish(self, status: str, detail: str = "", **attrs: Any) -> Path:
@@ -169,12 +179,15 @@ class RecordWriter:
         for k, j in enumerate(self.joint_names):
             g = f.require_group(f"histograms/{j}")
             for name, arr in (("time_s", self._hist[j]), ("revolutions", self._revs[j]),
+                              ("torque_revolutions_nm", self._trevs[j]),
+                              ("torque_time_nm_s", self._ttime[j]),
                               ("torque_edges_nm", self._tedges[j]),
                               ("speed_edges_rad_s", self._sedges[j])):
                 ds = g.create_dataset(name, data=arr, track_times=False)
                 ds.attrs["unit"] = _unit_for(name)
             g["time_s"].attrs["axes"] = "[torque_bin, speed_bin]"
-            g["revolutions"].attrs["axes"] = "[torque_bin, speed_bin]"
+            for name in ("revolutions", "torque_revolutions_nm", "torque_time_nm_s"):
+                g[name].attrs["axes"] = "[torque_bin, speed_bin]"
             g.attrs["overflow_s"] = self._overflow[k]
             s = f.require_group(f"summary/{j}")
             s.attrs["peak_torque_nm"] = self._peak_t[k]
@@ -322,6 +335,16 @@ class RunRecord:
         g = self._f[f"histograms/{joint}"]
         return (np.asarray(g["time_s"]), np.asarray(g["revolutions"]),
                 np.asarray(g["torque_edges_nm"]), np.asarray(g["speed_edges_rad_s"]))
+
+    def histogram_moments(self, joint: str) -> tuple[np.ndarray, np.ndarray]:
+        """``(torque_revolutions_nm, torque_time_nm_s)``, each ``[torque_bin, speed_bin]``.
+
+        Divided by ``revolutions`` or ``time_s`` they give the exact mean torque inside each
+        bin (revolution- or time-weighted), removing most of the binning error.
+        """
+        self.check_joint(joint)
+        g = self._f[f"histograms/{joint}"]
+        return np.asarray(g["torque_revolutions_nm"]), np.asarray(g["torque_time_nm_s"])
 
     def summary(self, joint: str) -> JointSummary:
         self.check_joint(joint)
