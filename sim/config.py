@@ -157,13 +157,24 @@ def validate(data: Mapping[str, Any], spec: Spec, file: str | Path | None = None
 def set_dotted(data: dict[str, Any], dotted: str, value: Any) -> None:
     """Set ``data['a']['b'] = value`` for ``dotted == 'a.b'``, creating tables as needed."""
     parts = dotted.split(".")
-    node = data
+    node: Any = data
     for p in parts[:-1]:
+        if isinstance(node, list):
+            if not p.isdigit() or int(p) >= len(node):
+                raise InputError("--set", dotted, f"an index below {len(node)} at '{p}'")
+            node = node[int(p)]
+            continue
         nxt = node.setdefault(p, {})
-        if not isinstance(nxt, dict):
-            raise InputError(None, dotted, f"'{p}' to be a table, it is a value")
+        if not isinstance(nxt, dict | list):
+            raise InputError("--set", dotted, f"'{p}' to be a table, it is a value")
         node = nxt
-    node[parts[-1]] = value
+    last = parts[-1]
+    if isinstance(node, list):
+        if not last.isdigit() or int(last) >= len(node):
+            raise InputError("--set", dotted, f"an index below {len(node)} at '{last}'")
+        node[int(last)] = value
+    else:
+        node[last] = value
 
 
 def parse_override(text: str) -> tuple[str, Any]:

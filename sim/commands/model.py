@@ -1,0 +1,54 @@
+"""``gaitload model MODEL.toml --urdf OUT.urdf``: validate a model and write its URDF."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+from pathlib import Path
+
+from sim.config import parse_override
+from sim.model import load_model
+from sim.urdf import build_urdf
+
+HELP = "check a robot model file and write its URDF"
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument("model", help="robot model file (models/*.toml)")
+    p.add_argument("--urdf", metavar="OUT.urdf", help="write the generated URDF here")
+    p.add_argument("--set", dest="overrides", action="append", default=[], metavar="KEY=VALUE",
+                   help="override a model key, e.g. leg.thigh_length_m=0.24")
+    p.add_argument("--json", action="store_true", help="print mass properties as JSON")
+
+
+def write_atomic(path: str | Path, text: str) -> Path:
+    """Write ``text`` to ``path`` through a temporary file in the same directory."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    try:
+        tmp.write_text(text)
+        os.replace(tmp, path)
+    finally:
+        tmp.unlink(missing_ok=True)
+    return path
+
+
+def execute(args: argparse.Namespace) -> int:
+    over = dict(parse_override(t) for t in args.overrides)
+    model = load_model(args.model, over)
+    info = {"model": model.name, "total_mass_kg": model.total_mass_kg,
+            "peak_torque_nm": {k: model.actuators[f"fl_{k}"].peak_torque_nm
+                               for k in ("abad", "hip", "knee")}}
+    if args.urdf:
+        write_atomic(args.urdf, build_urdf(model))
+        info["urdf"] = str(args.urdf)
+    if args.json:
+        print(json.dumps(info, indent=2))
+    else:
+        print(f"{model.name}: {model.total_mass_kg:.3f} kg; peak output torque "
+              + ", ".join(f"{k} {v:.1f} N m" for k, v in info["peak_torque_nm"].items()))
+        if args.urdf:
+            print(f"URDF written to {args.urdf}")
+    return 0

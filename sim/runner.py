@@ -1,0 +1,431 @@
+"""The engine runner: the only module that imports pybullet.
+
+One scenario becomes one HDF5 run record. The loop is explicit torque control at every fixed
+step: ``tau = tau_ff + kp (q* - q) + kd (qd* - qd)``, clamped to each actuator's envelope
+(:mod:`sim.actuator`), with targets and feed-forward from the segment controllers
+(:mod:`sim.gait`) refreshed every control period. Engine options follow the measured traps in
+the developer notes: default velocity motors disabled, link damping zeroed, the joint-speed
+clamp raised, inertia taken from the URDF, friction set as a product on both bodies, no
+sub-steps (contact forces would be divided by their number).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import sys
+import tempfile
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+
+def _import_engine():
+    """Import pybullet with its start-up banner sent to stderr (stdout may carry JSON)."""
+    sys.stdout.flush()
+    saved = os.dup(1)
+    try:
+        os.dup2(2, 1)
+        import pybullet
+
+        return pybullet
+    finally:
+        sys.stdout.flush()
+        os.dup2(saved, 1)
+        os.close(saved)
+
+
+pb = _import_engine()
+
+from sim import JOINT_NAMES, LEGS, __version__
+from sim.actuator import Envelope
+from sim.errors import SimulationFailure
+from sim.gait import RobotState, SegmentController, make_controller
+from sim.record import RecordWriter
+from sim.scenario import Scenario
+from sim.statics import StanceStatics
+from sim.urdf import build_urdf
+
+JOINT_INDICES = [4 * k + i for k in range(4) for i in range(3)]
+FOOT_LINKS = [4 * k + 3 for k in range(4)]
+_BLOCK = 2000  # steps buffered before statistics and series are flushed
+_CHECK_EVERY = 10  # steps between fall/divergence checks
+
+
+@dataclass
+class RunResult:
+    """Outcome of one run: status, where the record is, and per-joint figures."""
+
+    status: str
+    detail: str
+    record: Path
+    joints: dict[str, dict[str, float]] = field(default_factory=dict)
+    total_mass_kg: float = 0.0
+    steps_per_s: float = 0.0
+
+    def to_json(self) -> dict[str, Any]:
+        return {"status": self.status, "record": str(self.record), "joints": self.joints}
+
+
+class Engine:
+    """A pybullet DIRECT world holding the ground and one robot built from a scenario."""
+
+    def __init__(self, scenario: Scenario):
+        self.scenario = scenario
+        s = scenario.data
+        self.dt = scenario.time_step_s
+        self.cid = pb.connect(pb.DIRECT)
+        c = self.cid
+        pb.resetSimulation(physicsClientId=c)
+        pb.setPhysicsEngineParameter(fixedTimeStep=self.dt, numSubSteps=0, physicsClientId=c)
+        slope = s["ground"]["slope_rad"]
+        g = 9.80665
+        # a slope rising along +x is simulated as flat ground with gravity tilted backwards
+        self.gravity_w = np.array([-g * math.sin(slope), 0.0, -g * math.cos(slope)])
+        pb.setGravity(*self.gravity_w.tolist(), physicsClientId=c)
+        plane_shape = pb.createCollisionShape(pb.GEOM_PLANE, physicsClientId=c)
+        self.plane = pb.createMultiBody(0, plane_shape, physicsClientId=c)
+        pay = s["payload"]
+        self.urdf = build_urdf(scenario.model, pay["mass_kg"], pay["position_m"], pay["size_m"])
+        with tempfile.TemporaryDirectory(prefix="gaitload-") as tmp:
+            fn = os.path.join(tmp, "robot.urdf")
+            with open(fn, "w") as fh:
+                fh.write(self.urdf)
+            flags = pb.URDF_USE_INERTIA_FROM_FILE | pb.URDF_MAINTAIN_LINK_ORDER
+            self.robot = pb.loadURDF(fn, [0, 0, 1], flags=flags, useFixedBase=False,
+                                     physicsClientId=c)
+        r = self.robot
+        n_links = pb.getNumJoints(r, physicsClientId=c)
+        names = [pb.getJointInfo(r, j, physicsClientId=c)[1].decode() for j in JOINT_INDICES]
+        assert names == list(JOINT_NAMES), names
+        for link in range(-1, n_links):
+            pb.changeDynamics(r, link, linearDamping=0.0, angularDamping=0.0,
+                              physicsClientId=c)
+        pb.changeDynamics(r, -1, maxJointVelocity=1e4, physicsClientId=c)
+        gr = s["ground"]
+        pb.changeDynamics(self.plane, -1, lateralFriction=gr["friction"],
+                          restitution=gr["restitution"], physicsClientId=c)
+        for link in [*FOOT_LINKS, -1]:
+            kw: dict[str, Any] = {"lateralFriction": 1.0, "restitution": 1.0 if link != -1 else 0.0}
+            if gr["restitution"] == 0.0:
+                kw["restitution"] = 0.0
+            if link != -1 and gr["stiffness_n_m"] > 0:
+                kw.update(contactStiffness=gr["stiffness_n_m"], contactDamping=gr["damping_n_s_m"])
+            pb.changeDynamics(r, link, physicsClientId=c, **kw)
+        # the default velocity motors would cancel every torque command below 1/dt (N m)
+        pb.setJointMotorControlArray(r, JOINT_INDICES, pb.VELOCITY_CONTROL,
+                                     forces=[0.0] * 12, physicsClientId=c)
+        self.base_local_com = np.array(pb.getDynamicsInfo(r, -1, physicsClientId=c)[3])
+        self.total_mass_kg = sum(pb.getDynamicsInfo(r, j, physicsClientId=c)[0]
+                                 for j in range(-1, n_links))
+
+    def place(self, q: np.ndarray, base_z: float) -> None:
+        """Set joint angles ``q[4,3]`` at rest and the base frame origin at height ``base_z``."""
+        c, r = self.cid, self.robot
+        for idx, val in zip(JOINT_INDICES, q.reshape(-1), strict=True):
+            pb.resetJointState(r, idx, float(val), 0.0, physicsClientId=c)
+        pb.resetBasePositionAndOrientation(r, [0.0, 0.0, base_z] + self.base_local_com,
+                                           [0, 0, 0, 1], physicsClientId=c)
+        pb.resetBaseVelocity(r, [0, 0, 0], [0, 0, 0], physicsClientId=c)
+
+    def base_state(self) -> tuple[np.ndarray, list[float], np.ndarray, list[float], list[float]]:
+        """Base frame origin, quaternion xyzw, rotation, linear and angular velocity (world)."""
+        c, r = self.cid, self.robot
+        pos, orn = pb.getBasePositionAndOrientation(r, physicsClientId=c)
+        R = np.array(pb.getMatrixFromQuaternion(orn)).reshape(3, 3)
+        origin = np.array(pos) - R @ self.base_local_com
+        v, w = pb.getBaseVelocity(r, physicsClientId=c)
+        return origin, list(orn), R, list(v), list(w)
+
+    def foot_forces(self) -> tuple[list[float], list[float]]:
+        """Ground force on each foot (world frame, 12 numbers) and contact flags (4)."""
+        f = [0.0] * 12
+        contact = [0.0] * 4
+        for cp in pb.getContactPoints(self.robot, self.plane, physicsClientId=self.cid):
+            link = cp[3]
+            if link < 0 or link % 4 != 3:
+                continue
+            k = link // 4
+            n, fn, f1, d1, f2, d2 = cp[7], cp[9], cp[10], cp[11], cp[12], cp[13]
+            o = 3 * k
+            f[o] += fn * n[0] + f1 * d1[0] + f2 * d2[0]
+            f[o + 1] += fn * n[1] + f1 * d1[1] + f2 * d2[1]
+            f[o + 2] += fn * n[2] + f1 * d1[2] + f2 * d2[2]
+            contact[k] = 1.0
+        return f, contact
+
+    def body_contact(self) -> bool:
+        """True if anything but a foot touches the ground."""
+        return any(cp[3] % 4 != 3 or cp[3] < 0
+                   for cp in pb.getContactPoints(self.robot, self.plane, physicsClientId=self.cid))
+
+    def close(self) -> None:
+        if pb.isConnected(self.cid):
+            pb.disconnect(self.cid)
+
+
+def quat_rotate(q_xyzw: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Rotate vector ``v[3]`` by each unit quaternion ``q_xyzw[n, 4]``; returns ``[n, 3]``."""
+    xyz = q_xyzw[:, :3]
+    w = q_xyzw[:, 3:4]
+    t = 2.0 * np.cross(xyz, v)
+    return v + w * t + np.cross(xyz, t)
+
+
+def _edges(scn: Scenario) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+    rec = scn.data["record"]
+    te, se = {}, {}
+    for j in JOINT_NAMES:
+        act = scn.model.actuators[j]
+        tp = act.peak_torque_nm * 1.0001
+        w0 = act.no_load_speed_rad_s * 1.5
+        te[j] = np.linspace(-tp, tp, rec["torque_bins"] + 1)
+        se[j] = np.linspace(-w0, w0, rec["speed_bins"] + 1)
+    return te, se
+
+
+def run(scn: Scenario, out_path: str | Path, progress: bool = False) -> RunResult:
+    """Simulate ``scn`` into the record ``out_path``; return the outcome.
+
+    A fall or divergence ends the run and is recorded with that status (the caller decides
+    how to report it); Ctrl-C finishes the record marked ``interrupted`` and re-raises.
+    """
+    import time
+
+    out_path = Path(out_path)
+    eng = Engine(scn)
+    try:
+        return _run(scn, eng, out_path, progress, time.perf_counter)
+    finally:
+        eng.close()
+
+
+def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> RunResult:
+    d = scn.data
+    dt = eng.dt
+    statics = StanceStatics(scn.model, d["payload"]["mass_kg"], d["payload"]["position_m"])
+    envs = [Envelope.of(scn.model.actuators[j]) for j in JOINT_NAMES]
+    A = [e.a for e in envs]
+    B = [e.b for e in envs]
+    C = [e.c for e in envs]
+    CORNER = [e.corner_speed_rad_s for e in envs]
+    kinds = [j.split("_")[1] for j in JOINT_NAMES]
+    KP = [d["control"]["kp_nm_rad"][k] for k in kinds]
+    KD = [d["control"]["kd_nm_s_rad"][k] for k in kinds]
+    rec_opt = d["record"]
+    dec = rec_opt["decimation"]
+    series = rec_opt["series"]
+    start_step = round(rec_opt["start_s"] / dt)
+    lim = d["limits"]
+    cos_tilt = math.cos(lim["max_tilt_rad"])
+    hip_h = scn.model.data["stance"]["hip_height_m"]
+    min_h = lim["min_height_fraction"] * hip_h
+    w_max = lim["max_joint_speed_rad_s"]
+
+    segs = list(scn.segments)
+    seg_steps = [round(s["duration_s"] / dt) for s in segs]
+    n_total = sum(seg_steps)
+    ctrls: list[SegmentController] = [make_controller(s, scn.model, statics) for s in segs]
+    q0 = ctrls[0].initial_angles() if hasattr(ctrls[0], "initial_angles") else None
+    from sim.gait import stance_angles
+
+    q_init = stance_angles(scn.model) if q0 is None else q0
+    feet_b = statics.kin.foot_positions(q_init)
+    body_h = scn.model.data["body"]["size_m"][2]
+    base_z = max(body_h / 2, float(-(feet_b[:, 2].min())) + statics.kin.foot_radius_m) + 5e-4
+    eng.place(q_init, base_z)
+
+    te, se = _edges(scn)
+    attrs = {
+        "tool_version": __version__, "scenario_toml": scn.to_toml(),
+        "model_toml": scn.model.to_toml(), "time_step_s": dt, "sample_period_s": dt * dec,
+        "decimation": dec, "seed": d["seed"], "engine_version": f"pybullet {pb.getAPIVersion()}",
+        "total_mass_kg": eng.total_mass_kg, "leg_names": list(LEGS),
+        "series_written": series, "record_start_s": start_step * dt,
+        "scenario_file": os.path.basename(scn.file),
+        "world_frame": "ground frame: z normal to the ground, x up the slope",
+    }
+    r, c = eng.robot, eng.cid
+    getJS = pb.getJointStates
+    setJ = pb.setJointMotorControlArray
+    step = pb.stepSimulation
+    getBase = pb.getBasePositionAndOrientation
+    getVel = pb.getBaseVelocity
+    TQ = pb.TORQUE_CONTROL
+    J = JOINT_INDICES
+    R12 = range(12)
+    hb = np.empty((_BLOCK, 36))
+    ns_cols = 1 + 12 * 5 + 13 + 12 + 4
+    sb = np.empty((_BLOCK // dec + 2, ns_cols))
+    n_hb = 0
+    n_sb = 0
+    seg_table = []
+    status, detail = "completed", ""
+    bar = None
+    if progress and sys.stderr.isatty():
+        from tqdm import tqdm
+        bar = tqdm(total=n_total, unit="step", unit_scale=True, desc="simulating",
+                   file=sys.stderr, leave=False)
+
+    with RecordWriter(out_path, JOINT_NAMES, te, se, attrs) as w:
+
+        def flush() -> None:
+            nonlocal n_hb, n_sb
+            if n_hb:
+                blk = hb[:n_hb]
+                w.accumulate(blk[:, 0:12], blk[:, 12:24], blk[:, 24:36], dt)
+                n_hb = 0
+            if n_sb and series:
+                s_ = sb[:n_sb]
+                w.append("time_s", s_[:, 0])
+                for k, jn in enumerate(JOINT_NAMES):
+                    w.append(f"joints/{jn}/angle_rad", s_[:, 1 + k])
+                    w.append(f"joints/{jn}/speed_rad_s", s_[:, 13 + k])
+                    w.append(f"joints/{jn}/torque_nm", s_[:, 25 + k])
+                    w.append(f"joints/{jn}/torque_command_nm", s_[:, 37 + k])
+                    w.append(f"joints/{jn}/saturated", s_[:, 49 + k], dtype="i1")
+                o = 61
+                w.append("base/position_m",
+                         s_[:, o:o + 3] - quat_rotate(s_[:, o + 3:o + 7], eng.base_local_com))
+                w.append("base/orientation_xyzw", s_[:, o + 3:o + 7])
+                w.append("base/velocity_m_s", s_[:, o + 7:o + 10])
+                w.append("base/angular_velocity_rad_s", s_[:, o + 10:o + 13])
+                o += 13
+                for k, leg in enumerate(LEGS):
+                    w.append(f"feet/{leg}/force_n", s_[:, o + 3 * k:o + 3 * k + 3])
+                o += 12
+                for k, leg in enumerate(LEGS):
+                    w.append(f"feet/{leg}/contact", s_[:, o + k], dtype="i1")
+            n_sb = 0
+
+        i_global = 0
+        t0 = clock()
+        try:
+            for si, (seg, ctrl, nsteps) in enumerate(zip(segs, ctrls, seg_steps, strict=True)):
+                seg_start = i_global
+                upd_every = max(round(d["control"]["update_period_s"] / dt),
+                                round(ctrl.min_update_period_s / dt), 1)
+                qdes = [0.0] * 12
+                qddes = [0.0] * 12
+                ff = [0.0] * 12
+                for i in range(nsteps):
+                    st = getJS(r, J, physicsClientId=c)
+                    q = [s[0] for s in st]
+                    qd = [s[1] for s in st]
+                    if i % upd_every == 0:
+                        origin, orn, Rm, v, om = eng.base_state()
+                        contact = eng.foot_forces()[1] if ctrl.needs_contacts else [1.0] * 4
+                        state = RobotState(i_global * dt, np.reshape(q, (4, 3)),
+                                           np.reshape(qd, (4, 3)), origin, Rm, np.array(v),
+                                           np.array(om), eng.gravity_w,
+                                           np.array(contact) > 0)
+                        a_, b_, c_ = ctrl.update(i * dt, state)
+                        qdes = a_.reshape(-1).tolist()
+                        qddes = b_.reshape(-1).tolist()
+                        ff = c_.reshape(-1).tolist()
+                    tau = [0.0] * 12
+                    sat = [0.0] * 12
+                    tc = [ff[j] + KP[j] * (qdes[j] - q[j]) + KD[j] * (qddes[j] - qd[j])
+                          for j in R12]
+                    for j in R12:
+                        x = tc[j]
+                        wj = qd[j]
+                        aj = A[j]
+                        cj = CORNER[j]
+                        if -aj <= x <= aj and -cj <= wj <= cj:
+                            tau[j] = x
+                            continue
+                        hi = B[j] - C[j] * wj
+                        if hi > aj:
+                            hi = aj
+                        lo = -B[j] - C[j] * wj
+                        if lo < -aj:
+                            lo = -aj
+                        if hi < lo:
+                            hi = lo
+                        if x > hi:
+                            tau[j] = hi
+                            sat[j] = 1.0
+                        elif x < lo:
+                            tau[j] = lo
+                            sat[j] = 1.0
+                        else:
+                            tau[j] = x
+                    setJ(r, J, TQ, forces=tau, physicsClientId=c)
+                    step(physicsClientId=c)
+                    if i_global >= start_step:
+                        hb[n_hb] = tau + qd + sat
+                        n_hb += 1
+                        if series and (i_global - start_step) % dec == 0:
+                            # base COM and orientation now; frame origin computed at flush
+                            pos, orn = getBase(r, physicsClientId=c)
+                            v, om = getVel(r, physicsClientId=c)
+                            fv, contact = eng.foot_forces()
+                            sb[n_sb] = ([i_global * dt] + q + qd + tau + tc + sat
+                                        + list(pos) + list(orn) + list(v) + list(om) + fv
+                                        + contact)
+                            n_sb += 1
+                        if n_hb == _BLOCK:
+                            flush()
+                    i_global += 1
+                    if i_global % _CHECK_EVERY == 0:
+                        pos, orn = pb.getBasePositionAndOrientation(r, physicsClientId=c)
+                        xq, yq = orn[0], orn[1]
+                        cz = 1.0 - 2.0 * (xq * xq + yq * yq)
+                        wabs = max(abs(x) for x in qd)
+                        if not math.isfinite(sum(qd) + sum(pos)) or wabs > w_max:
+                            status = "diverged"
+                            detail = (f"joint speed {wabs:.3g} rad/s beyond {w_max:g} rad/s "
+                                      f"or non-finite state at t = {i_global * dt:.3f} s")
+                            break
+                        if cz < cos_tilt:
+                            status = "fell"
+                            detail = (f"body tilt {math.degrees(math.acos(max(-1, cz))):.1f} deg "
+                                      f"beyond {math.degrees(lim['max_tilt_rad']):.1f} deg at "
+                                      f"t = {i_global * dt:.3f} s in segment '{seg['name']}'")
+                            break
+                        if ctrl.needs_standing and pos[2] < min_h:
+                            status = "fell"
+                            detail = (f"body height {pos[2]:.3f} m below {min_h:.3f} m at "
+                                      f"t = {i_global * dt:.3f} s in segment '{seg['name']}'")
+                            break
+                        if bar is not None and i_global % 1000 == 0:
+                            bar.update(1000)
+                seg_table.append((seg["name"], seg["kind"], seg_start * dt, i_global * dt))
+                if status != "completed":
+                    break
+        except KeyboardInterrupt:
+            status, detail = "interrupted", f"interrupted at t = {i_global * dt:.3f} s"
+            flush()
+            w.put("segments/name", [s[0] for s in seg_table] or [""])
+            w.finish(status, detail)
+            raise
+        finally:
+            if bar is not None:
+                bar.close()
+        elapsed = clock() - t0
+        flush()
+        w.put("segments/name", np.array([s[0] for s in seg_table]))
+        w.put("segments/kind", np.array([s[1] for s in seg_table]))
+        w.put("segments/start_s", np.array([s[2] for s in seg_table]), unit="s")
+        w.put("segments/end_s", np.array([s[3] for s in seg_table]), unit="s")
+        path = w.finish(status, detail, simulated_s=i_global * dt)
+    from sim.record import open_record
+
+    joints = {}
+    with open_record(path) as rec:
+        for j in JOINT_NAMES:
+            s = rec.summary(j)
+            joints[j] = {"peak_torque_nm": s.peak_torque_nm, "rms_torque_nm": s.rms_torque_nm,
+                         "peak_speed_rad_s": s.peak_speed_rad_s, "saturated_s": s.saturated_s}
+    return RunResult(status, detail, path, joints, eng.total_mass_kg,
+                     i_global / elapsed if elapsed > 0 else 0.0)
+
+
+def raise_for_status(result: RunResult) -> RunResult:
+    """Turn a fall or divergence into :class:`SimulationFailure` (exit code 3)."""
+    if result.status in ("fell", "diverged"):
+        raise SimulationFailure(result.status, result.detail, str(result.record))
+    return result

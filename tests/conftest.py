@@ -1,0 +1,25 @@
+"""Shared fixtures: a settled stand of the demo robot, simulated once per test session."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+SCENARIOS = ROOT / "scenarios"
+MODELS = ROOT / "models"
+
+
+@pytest.fixture(scope="session")
+def stand_record(tmp_path_factory) -> Path:
+    """A 2.5 s stand (first 1.5 s settling left out) of the demo robot."""
+    from sim.runner import run
+    from sim.scenario import load_scenario
+
+    scn = load_scenario(SCENARIOS / "stand.toml",
+                        ["segment.0.duration_s=2.5", "record.start_s=1.5"])
+    out = tmp_path_factory.mktemp("stand") / "stand.h5"
+    res = run(scn, out)
+    assert res.status == "completed", res.detail
+    return out

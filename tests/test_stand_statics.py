@@ -1,0 +1,132 @@
+"""Standing statics of the simulated demo robot against outside references.
+
+- Newton's first law: vertical foot forces sum to the total weight.
+- pinocchio (``pin`` from PyPI): joint torques tau = g(q) - sum J_c^T f on the exported URDF
+  with a free-flyer root, at the recorded angles and foot forces.
+- Closed-form statics of a planar two-link leg (textbook statics; the massless form is checked
+  on the worked case of the equal-link leg, l = 0.20 m, h = 0.28 m, F = 29.43 N, which gives
+  tau_knee = F sqrt(l^2 - h^2/4) = 4.20344 N m and tau_hip = 0).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from sim import JOINT_NAMES, LEGS
+from sim.model import model_from_data
+from sim.record import open_record
+from sim.urdf import build_urdf
+
+G = 9.80665
+
+
+def _last(rec, name, n=200):
+    a = rec.read(name)
+    return a[-n:].mean(axis=0)
+
+
+def _state(path):
+    import tomllib
+
+    with open_record(path) as rec:
+        mdl = model_from_data(tomllib.loads(rec.attrs["model_toml"]), "record")
+        q = np.array([_last(rec, f"joints/{j}/angle_rad") for j in JOINT_NAMES])
+        tau = np.array([_last(rec, f"joints/{j}/torque_nm") for j in JOINT_NAMES])
+        F = np.array([_last(rec, f"feet/{leg}/force_n") for leg in LEGS])
+        pos = _last(rec, "base/position_m")
+        quat = _last(rec, "base/orientation_xyzw")
+        mass = rec.attrs["total_mass_kg"]
+    return mdl, q, tau, F, pos, quat / np.linalg.norm(quat), mass
+
+
+def test_vertical_foot_forces_sum_to_weight(stand_record):
+    _, _, _, F, _, _, mass = _state(stand_record)
+    assert F[:, 2].sum() == pytest.approx(mass * G, rel=0.01)
+
+
+def test_joint_torques_match_pinocchio(stand_record):
+    pin = pytest.importorskip("pinocchio")
+    mdl, q, tau, F, pos, quat, _ = _state(stand_record)
+    pm = pin.buildModelFromXML(build_urdf(mdl), pin.JointModelFreeFlyer())
+    pm.gravity.linear = np.array([0.0, 0.0, -G])
+    pd = pm.createData()
+    qq = np.concatenate([pos, quat, q])
+    g = pin.computeGeneralizedGravity(pm, pd, qq)
+    pin.computeJointJacobians(pm, pd, qq)
+    pin.updateFramePlacements(pm, pd)
+    rf = mdl.leg["foot_radius_m"]
+    tau_pin = g.copy()
+    for k, leg in enumerate(LEGS):
+        fid = pm.getFrameId(f"{leg}_foot")
+        J = pin.getFrameJacobian(pm, pd, fid, pin.ReferenceFrame.LOCAL_WORLD_ALIGNED)
+        o = pd.oMf[fid].translation
+        pc = o - np.array([0.0, 0.0, rf])  # contact at the bottom of the sphere
+        r = pc - o
+        skew = np.array([[0, -r[2], r[1]], [r[2], 0, -r[0]], [-r[1], r[0], 0]])
+        Jp = J[:3] - skew @ J[3:]
+        tau_pin -= Jp.T @ F[k]
+    for i, j in enumerate(JOINT_NAMES):
+        if j.endswith(("hip", "knee")):
+            assert tau[i] == pytest.approx(tau_pin[6 + i], rel=0.02), j
+
+
+def planar_two_link(l1, l2, q_hip, q_knee, fz, fx, m_shank, c_shank, m_foot, m_thigh_links=()):
+    """Knee and hip torques of a planar leg (x forward, z up) holding ground force (fx, fz).
+
+    Angles from the downward vertical; link COMs at distances along each link.
+    Returns the torques the actuators supply (positive about +y).
+    """
+    # joint and COM positions relative to the hip axis
+    kx, kz = -l1 * math.sin(q_hip), -l1 * math.cos(q_hip)
+    a2 = q_hip + q_knee
+    fxp, fzp = kx - l2 * math.sin(a2), kz - l2 * math.cos(a2)
+    sx, sz = kx - c_shank * math.sin(a2), kz - c_shank * math.cos(a2)
+
+    def moment_y(rx, rz, Fx, Fz):  # (r x F)_y = rz Fx - rx Fz
+        return rz * Fx - rx * Fz
+
+    def knee():
+        m = moment_y(sx - kx, sz - kz, 0.0, -m_shank * G)
+        m += moment_y(fxp - kx, fzp - kz, 0.0, -m_foot * G)
+        m += moment_y(fxp - kx, fzp - kz, fx, fz)
+        return -m
+
+    def hip():
+        m = moment_y(sx, sz, 0.0, -m_shank * G) + moment_y(fxp, fzp, 0.0, -m_foot * G)
+        m += moment_y(fxp, fzp, fx, fz)
+        for mass, (cx, cz) in m_thigh_links:
+            m += moment_y(cx, cz, 0.0, -mass * G)
+        return -m
+
+    return hip(), knee()
+
+
+def test_planar_formula_on_the_worked_equal_link_case():
+    # massless equal links l = 0.20 m at hip-foot height h = 0.28 m, F = 12 kg g / 4 = 29.43 N
+    l, h, F = 0.20, 0.28, 29.43
+    q_knee = -2 * math.acos(h / (2 * l))
+    q_hip = -q_knee / 2
+    hip, knee = planar_two_link(l, l, q_hip, q_knee, F, 0.0, 0.0, 0.0, 0.0)
+    assert abs(knee) == pytest.approx(4.20344, abs=5e-5)
+    assert hip == pytest.approx(0.0, abs=1e-12)
+    assert abs(knee) == pytest.approx(F * math.sqrt(l * l - h * h / 4), rel=1e-12)
+
+
+def test_sagittal_torques_match_closed_form_two_link_statics(stand_record):
+    mdl, q, tau, F, _, _, _ = _state(stand_record)
+    lg = mdl.leg
+    th = mdl.thigh_link("fl")
+    c_th = -th.com_m[2]  # thigh COM distance below the hip along the thigh
+    for k, leg in enumerate(LEGS):
+        a, qh, qk = q[3 * k:3 * k + 3]
+        # the leg plane is tilted by the small abad angle: project the ground force into it
+        fz = F[k, 2] * math.cos(a) + F[k, 1] * math.sin(a)
+        hip, knee = planar_two_link(
+            lg["thigh_length_m"], lg["shank_length_m"], qh, qk, fz, F[k, 0],
+            lg["shank_mass_kg"], lg["shank_length_m"] / 2, lg["foot_mass_kg"],
+            [(th.mass_kg * math.cos(a), (-c_th * math.sin(qh), -c_th * math.cos(qh)))])
+        assert tau[3 * k + 2] == pytest.approx(knee, rel=0.02), f"{leg}_knee"
+        assert tau[3 * k + 1] == pytest.approx(hip, rel=0.02), f"{leg}_hip"
