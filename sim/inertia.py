@@ -57,7 +57,7 @@ def combine(parts: Iterable[MassProps]) -> MassProps:
     m = sum(p.mass_kg for p in parts)
     if m <= 0:
         raise ValueError("composite mass must be positive")
-    com = sum(p.mass_kg * p.com_m for p in parts) / m
+    com = np.sum([p.mass_kg * p.com_m for p in parts], axis=0) / m
     inertia = np.zeros((3, 3))
     for p in parts:
         d = p.com_m - com

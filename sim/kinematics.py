@@ -106,7 +106,7 @@ class LegKinematics:
 
     def jacobians(self, q: np.ndarray) -> np.ndarray:
         """Foot-centre Jacobians ``[4, 3, 3]`` (d p_foot / d q) in the base frame."""
-        Rx, R_th, R_sh, p_hip, p_knee, p_foot = self._frames(np.asarray(q, float))
+        Rx, _, _, p_hip, p_knee, p_foot = self._frames(np.asarray(q, float))
         ex = np.array([1.0, 0.0, 0.0])
         ey = Rx[:, :, 1]  # hip/knee axis in base frame
         J = np.empty((q.shape[0], 3, 3))
@@ -161,7 +161,7 @@ class LegKinematics:
         the ground on each foot [4, 3], applied at the foot's lowest point along -gravity.
         """
         q = np.asarray(q, float)
-        Rx, R_th, R_sh, p_hip, p_knee, p_foot = self._frames(q)
+        Rx, _, _, p_hip, p_knee, p_foot = self._frames(q)
         coms, masses = self.link_coms(q)
         g = np.asarray(gravity_b, float)
         n_up = -g / np.linalg.norm(g)

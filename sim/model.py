@@ -20,8 +20,8 @@ from sim.config import Field, dump_toml, load_toml, set_dotted, validate
 from sim.errors import InputError
 from sim.inertia import MassProps, box, combine, cylinder, sphere
 
-POS = {"min": 0.0, "min_inclusive": False}
-NONNEG = {"min": 0.0}
+POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
+NONNEG: dict[str, Any] = {"min": 0.0}
 
 ACTUATOR_SPEC: dict[str, Any] = {
     "gear_ratio": Field(float, "reducer ratio, motor turns per joint turn", required=True,

@@ -199,8 +199,8 @@ class RecordWriter:
         f.attrs["status"] = status
         f.attrs["status_detail"] = detail
         f.attrs["steps"] = self._steps
-        for k, v in attrs.items():
-            f.attrs[k] = v
+        for name, value in attrs.items():
+            f.attrs[name] = value
         f.close()
         os.replace(self.tmp, self.path)
         self._done = True
@@ -257,7 +257,7 @@ class RunRecord:
     # metadata
     @property
     def attrs(self) -> dict[str, Any]:
-        out = {}
+        out: dict[str, Any] = {}
         for k, v in self._f.attrs.items():
             if isinstance(v, bytes):
                 v = v.decode()

@@ -21,6 +21,15 @@ from typing import Any
 
 import numpy as np
 
+from sim import JOINT_NAMES, LEGS, __version__
+from sim.actuator import Envelope
+from sim.errors import SimulationFailure
+from sim.gait import RobotState, SegmentController, make_controller
+from sim.record import RecordWriter
+from sim.scenario import Scenario
+from sim.statics import StanceStatics
+from sim.urdf import build_urdf
+
 
 def _import_engine():
     """Import pybullet with its start-up banner sent to stderr (stdout may carry JSON)."""
@@ -38,15 +47,6 @@ def _import_engine():
 
 
 pb = _import_engine()
-
-from sim import JOINT_NAMES, LEGS, __version__
-from sim.actuator import Envelope
-from sim.errors import SimulationFailure
-from sim.gait import RobotState, SegmentController, make_controller
-from sim.record import RecordWriter
-from sim.scenario import Scenario
-from sim.statics import StanceStatics
-from sim.urdf import build_urdf
 
 JOINT_INDICES = [4 * k + i for k in range(4) for i in range(3)]
 FOOT_LINKS = [4 * k + 3 for k in range(4)]
@@ -126,7 +126,7 @@ class Engine:
         c, r = self.cid, self.robot
         for idx, val in zip(JOINT_INDICES, q.reshape(-1), strict=True):
             pb.resetJointState(r, idx, float(val), 0.0, physicsClientId=c)
-        pb.resetBasePositionAndOrientation(r, [0.0, 0.0, base_z] + self.base_local_com,
+        pb.resetBasePositionAndOrientation(r, np.array([0.0, 0.0, base_z]) + self.base_local_com,
                                            [0, 0, 0, 1], physicsClientId=c)
         pb.resetBaseVelocity(r, [0, 0, 0], [0, 0, 0], physicsClientId=c)
 
@@ -303,7 +303,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         i_global = 0
         t0 = clock()
         try:
-            for si, (seg, ctrl, nsteps) in enumerate(zip(segs, ctrls, seg_steps, strict=True)):
+            for seg, ctrl, nsteps in zip(segs, ctrls, seg_steps, strict=True):
                 seg_start = i_global
                 upd_every = max(round(d["control"]["update_period_s"] / dt),
                                 round(ctrl.min_update_period_s / dt), 1)
@@ -363,9 +363,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                             pos, orn = getBase(r, physicsClientId=c)
                             v, om = getVel(r, physicsClientId=c)
                             fv, contact = eng.foot_forces()
-                            sb[n_sb] = ([i_global * dt] + q + qd + tau + tc + sat
-                                        + list(pos) + list(orn) + list(v) + list(om) + fv
-                                        + contact)
+                            sb[n_sb] = [i_global * dt, *q, *qd, *tau, *tc, *sat, *pos, *orn,
+                                        *v, *om, *fv, *contact]
                             n_sb += 1
                         if n_hb == _BLOCK:
                             flush()
@@ -414,12 +413,12 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         path = w.finish(status, detail, simulated_s=i_global * dt)
     from sim.record import open_record
 
-    joints = {}
+    joints: dict[str, dict[str, float]] = {}
     with open_record(path) as rec:
-        for j in JOINT_NAMES:
-            s = rec.summary(j)
-            joints[j] = {"peak_torque_nm": s.peak_torque_nm, "rms_torque_nm": s.rms_torque_nm,
-                         "peak_speed_rad_s": s.peak_speed_rad_s, "saturated_s": s.saturated_s}
+        for jn in JOINT_NAMES:
+            sm = rec.summary(jn)
+            joints[jn] = {"peak_torque_nm": sm.peak_torque_nm, "rms_torque_nm": sm.rms_torque_nm,
+                          "peak_speed_rad_s": sm.peak_speed_rad_s, "saturated_s": sm.saturated_s}
     return RunResult(status, detail, path, joints, eng.total_mass_kg,
                      i_global / elapsed if elapsed > 0 else 0.0)
 

@@ -19,7 +19,7 @@ from sim.config import Field, dump_toml, load_toml, parse_override, set_dotted, 
 from sim.errors import InputError
 from sim.model import RobotModel, model_from_data
 
-POS = {"min": 0.0, "min_inclusive": False}
+POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
 
 SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie")
 

@@ -70,7 +70,7 @@ class StanceStatics:
         q = np.asarray(q, float)
         stance = np.ones(4, bool) if stance is None else np.asarray(stance, bool)
         g = np.asarray(gravity_b, float)
-        gn = np.linalg.norm(g)
+        gn = float(np.linalg.norm(g))
         up = -g / gn
         feet = self.kin.foot_positions(q) - self.kin.foot_radius_m * up
         com = self.com_b(q)

@@ -20,7 +20,7 @@ from sim.inertia import MassProps, box, combine
 from sim.model import RobotModel
 
 
-def _v(x: Sequence[float]) -> str:
+def _v(x: Sequence[float] | np.ndarray) -> str:
     return " ".join(f"{float(v):.9g}" for v in x)
 
 

@@ -31,8 +31,8 @@ def test_two_runs_are_bit_identical(tmp_path):
     a, b = tmp_path / "a.h5", tmp_path / "b.h5"
     run(scn, a)
     run(load_scenario(SCENARIOS / "stand.toml", SHORT), b)
-    da, aa = _datasets(a)
-    db, ab = _datasets(b)
+    da, _ = _datasets(a)
+    db, _ = _datasets(b)
     assert da.keys() == db.keys()
     for k in da:
         np.testing.assert_array_equal(da[k], db[k], err_msg=k)
@@ -87,7 +87,7 @@ def test_interrupt_leaves_a_record_marked_interrupted(tmp_path, monkeypatch):
 def test_run_json_has_the_documented_shape(tmp_path, capsys):
     out = tmp_path / "s.h5"
     assert main(["run", str(SCENARIOS / "stand.toml"), "-o", str(out), "--json",
-                 *sum((["--set", s] for s in SHORT), [])]) == 0
+                 *[x for s in SHORT for x in ("--set", s)]]) == 0
     doc = json.loads(capsys.readouterr().out)
     assert doc["status"] == "completed" and doc["record"] == str(out)
     assert set(doc["joints"]["fl_knee"]) == {"peak_torque_nm", "rms_torque_nm",

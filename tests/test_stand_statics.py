@@ -106,13 +106,13 @@ def planar_two_link(l1, l2, q_hip, q_knee, fz, fx, m_shank, c_shank, m_foot, m_t
 
 def test_planar_formula_on_the_worked_equal_link_case():
     # massless equal links l = 0.20 m at hip-foot height h = 0.28 m, F = 12 kg g / 4 = 29.43 N
-    l, h, F = 0.20, 0.28, 29.43
-    q_knee = -2 * math.acos(h / (2 * l))
+    link, h, F = 0.20, 0.28, 29.43
+    q_knee = -2 * math.acos(h / (2 * link))
     q_hip = -q_knee / 2
-    hip, knee = planar_two_link(l, l, q_hip, q_knee, F, 0.0, 0.0, 0.0, 0.0)
+    hip, knee = planar_two_link(link, link, q_hip, q_knee, F, 0.0, 0.0, 0.0, 0.0)
     assert abs(knee) == pytest.approx(4.20344, abs=5e-5)
     assert hip == pytest.approx(0.0, abs=1e-12)
-    assert abs(knee) == pytest.approx(F * math.sqrt(l * l - h * h / 4), rel=1e-12)
+    assert abs(knee) == pytest.approx(F * math.sqrt(link * link - h * h / 4), rel=1e-12)
 
 
 def test_sagittal_torques_match_closed_form_two_link_statics(stand_record):

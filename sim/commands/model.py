@@ -6,6 +6,7 @@ import argparse
 import json
 import os
 from pathlib import Path
+from typing import Any
 
 from sim.config import parse_override
 from sim.model import load_model
@@ -38,7 +39,7 @@ def write_atomic(path: str | Path, text: str) -> Path:
 def execute(args: argparse.Namespace) -> int:
     over = dict(parse_override(t) for t in args.overrides)
     model = load_model(args.model, over)
-    info = {"model": model.name, "total_mass_kg": model.total_mass_kg,
+    info: dict[str, Any] = {"model": model.name, "total_mass_kg": model.total_mass_kg,
             "peak_torque_nm": {k: model.actuators[f"fl_{k}"].peak_torque_nm
                                for k in ("abad", "hip", "knee")}}
     if args.urdf:
