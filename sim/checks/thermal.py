@@ -75,15 +75,17 @@ class ThermalNetwork:
 
     capacity_winding_j_per_k (C_w), capacity_housing_j_per_k (C_h),
     resistance_winding_housing_k_per_w (R_wh), resistance_housing_ambient_k_per_w (R_ha).
+    Fields may be arrays (one network per motor, shape ``[motor, 1]``) that broadcast against
+    per-sample inputs ``[motor, sample]``.
     """
 
-    capacity_winding_j_per_k: float
-    capacity_housing_j_per_k: float
-    resistance_winding_housing_k_per_w: float
-    resistance_housing_ambient_k_per_w: float
+    capacity_winding_j_per_k: float | np.ndarray
+    capacity_housing_j_per_k: float | np.ndarray
+    resistance_winding_housing_k_per_w: float | np.ndarray
+    resistance_housing_ambient_k_per_w: float | np.ndarray
 
     @property
-    def total_resistance_k_per_w(self) -> float:
+    def total_resistance_k_per_w(self) -> float | np.ndarray:
         return self.resistance_winding_housing_k_per_w + self.resistance_housing_ambient_k_per_w
 
     def time_constants_s(self, feedback_w_per_k: float = 0.0) -> tuple[float, float]:
@@ -96,8 +98,8 @@ class ThermalNetwork:
         g2 = 1.0 / self.resistance_housing_ambient_k_per_w
         cw, ch = self.capacity_winding_j_per_k, self.capacity_housing_j_per_k
         a = (beta - g1) / cw
-        return a, np.full_like(a, g1 / cw), np.full_like(a, g1 / ch), np.full_like(
-            a, -(g1 + g2) / ch)
+        zero = np.zeros_like(a)
+        return a, zero + g1 / cw, zero + g1 / ch, zero - (g1 + g2) / ch
 
     def steady_rise_k(self, copper_w: float, housing_w: float = 0.0,
                       feedback_w_per_k: float = 0.0) -> tuple[float, float]:
@@ -115,7 +117,7 @@ class ThermalNetwork:
         theta_w = (copper_w * (r_wh + r_ha) + housing_w * r_ha) / denom
         p_w = copper_w + feedback_w_per_k * theta_w
         theta_h = (p_w + housing_w) * r_ha
-        return theta_w, theta_h
+        return float(theta_w), float(theta_h)
 
 
 def _eigen(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarray
