@@ -143,15 +143,15 @@ def test_corner_speed_hand_calculation():
     wc = corner_speed_rad_s(m, 24.0, t_i)
     assert wc == pytest.approx(20.0 / 0.0954930, rel=1e-6)
     assert wc == pytest.approx(209.440, abs=1e-3)
-    lo, hi = envelope_nm(m, np.array([0.5 * wc, wc, 1.1 * wc]), 24.0, t_i)
+    _lo, hi = envelope_nm(m, np.array([0.5 * wc, wc, 1.1 * wc]), 24.0, t_i)
     assert hi[0] == pytest.approx(t_i) and hi[1] == pytest.approx(t_i)
     assert hi[2] < t_i
     # four quadrants: braking at negative speed keeps the full current limit
-    lo2, hi2 = envelope_nm(m, np.array([-wc * 1.1]), 24.0, t_i)
+    _lo2, hi2 = envelope_nm(m, np.array([-wc * 1.1]), 24.0, t_i)
     assert hi2[0] == pytest.approx(t_i)
     # point symmetry of the envelope: lower(w) = -upper(-w)
     ws = np.linspace(-300, 300, 61)
-    lo3, hi3 = envelope_nm(m, ws, 24.0, t_i)
+    lo3, _hi3 = envelope_nm(m, ws, 24.0, t_i)
     np.testing.assert_allclose(lo3, -envelope_nm(m, -ws, 24.0, t_i)[1], rtol=1e-12)
 
 
