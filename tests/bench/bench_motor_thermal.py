@@ -15,11 +15,11 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from sim import JOINT_NAMES  # noqa: E402
-from sim.checks import thermal as th  # noqa: E402
-from sim.checks.motor import check_motors, load_motor_part  # noqa: E402
-from sim.checks.supply import Supply  # noqa: E402
-from tests.synthetic import write_synthetic_record  # noqa: E402
+from sim import JOINT_NAMES
+from sim.checks import thermal as th
+from sim.checks.motor import check_motors, load_motor_part
+from sim.checks.supply import Supply
+from tests.synthetic import write_synthetic_record
 
 
 def main() -> None:
