@@ -199,8 +199,8 @@ class RecordWriter:
         f.attrs["status"] = status
         f.attrs["status_detail"] = detail
         f.attrs["steps"] = self._steps
-        for k, v in attrs.items():
-            f.attrs[k] = v
+        for key, v in attrs.items():
+            f.attrs[key] = v
         f.close()
         os.replace(self.tmp, self.path)
         self._done = True
