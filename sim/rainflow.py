@@ -277,22 +277,23 @@ def _stack_count(v: np.ndarray, idx: np.ndarray) -> Cycles:
 def extract_cycles(series: object) -> Cycles:
     """Rainflow cycles of ``series`` by ASTM E1049-85 5.4.4, residue as half cycles.
 
-    >>> c = extract_cycles([-2, 1, -3, 5, -1, 3, -4, 4, -2])
-    >>> count_by_range(c)
-    [(3.0, 0.5), (4.0, 1.5), (6.0, 0.5), (8.0, 1.0), (9.0, 0.5)]
+    >>> ranges, counts = count_by_range(extract_cycles([-2, 1, -3, 5, -1, 3, -4, 4, -2]))
+    >>> ranges.tolist(), counts.tolist()
+    ([3.0, 4.0, 6.0, 8.0, 9.0], [0.5, 1.5, 0.5, 1.0, 0.5])
     """
     v, idx = find_reversals(series)
     cyc, _, _ = _peel(v, idx, finish=True)
     return cyc
 
 
-def count_by_range(cycles: Cycles) -> list[tuple[float, float]]:
-    """Sorted ``[(range, count), ...]`` with equal ranges added up (no binning)."""
+def count_by_range(cycles: Cycles) -> tuple[np.ndarray, np.ndarray]:
+    """``(ranges, counts)``: the distinct ranges, ascending, and the cycles at each (equal
+    ranges added up, no binning). ``list(zip(*count_by_range(c)))`` has the form of
+    ``rainflow.count_cycles``."""
     if cycles.range.size == 0:
-        return []
+        return np.zeros(0), np.zeros(0)
     u, inv = np.unique(cycles.range, return_inverse=True)
-    c = np.bincount(inv, weights=cycles.count, minlength=u.size)
-    return list(zip(u.tolist(), c.tolist(), strict=True))
+    return u, np.bincount(inv, weights=cycles.count, minlength=u.size)
 
 
 @dataclass(frozen=True)
