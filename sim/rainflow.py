@@ -182,9 +182,8 @@ class ReversalStream:
         # only grow with more data, so every closure found now stays valid
         v_ext = np.append(v, self._last)
         i_ext = np.append(i, self._n - 1)
-        cyc, v_left, i_left = _peel(v_ext, i_ext, finish=False)
-        if cyc.range.size:
-            self._cycles.append(cyc)
+        parts, v_left, i_left = _peel(v_ext, i_ext, finish=False)
+        self._cycles.extend(parts)
         self._pend_v, self._pend_i = v_left[:-1], i_left[:-1]
 
     def finish(self) -> Cycles:
@@ -196,8 +195,8 @@ class ReversalStream:
         else:
             v = np.append(self._pend_v, self._last)
             i = np.append(self._pend_i, self._n - 1)
-        cyc, _, _ = _peel(v, i, finish=True)
-        return concat_cycles([*self._cycles, cyc])
+        parts, _, _ = _peel(v, i, finish=True)
+        return concat_cycles([*self._cycles, *parts])
 
 
 def _cycles_from(a_v: np.ndarray, b_v: np.ndarray, a_i: np.ndarray, b_i: np.ndarray,
@@ -206,7 +205,8 @@ def _cycles_from(a_v: np.ndarray, b_v: np.ndarray, a_i: np.ndarray, b_i: np.ndar
                   a_i.astype(np.int64), b_i.astype(np.int64))
 
 
-def _peel(v: np.ndarray, idx: np.ndarray, finish: bool) -> tuple[Cycles, np.ndarray, np.ndarray]:
+def _peel(v: np.ndarray, idx: np.ndarray, finish: bool
+          ) -> tuple[list[Cycles], np.ndarray, np.ndarray]:
     """Remove closed cycles from reversals ``v`` (sample indices ``idx``).
 
     Vectorised passes remove every interior range r[k] with r[k-1] > r[k] <= r[k+1]; the
@@ -234,7 +234,7 @@ def _peel(v: np.ndarray, idx: np.ndarray, finish: bool) -> tuple[Cycles, np.ndar
             break
     if finish:
         parts.append(_stack_count(v, idx))
-    return concat_cycles(parts), v, idx
+    return parts, v, idx
 
 
 def _stack_count(v: np.ndarray, idx: np.ndarray) -> Cycles:
@@ -282,8 +282,8 @@ def extract_cycles(series: object) -> Cycles:
     ([3.0, 4.0, 6.0, 8.0, 9.0], [0.5, 1.5, 0.5, 1.0, 0.5])
     """
     v, idx = find_reversals(series)
-    cyc, _, _ = _peel(v, idx, finish=True)
-    return cyc
+    parts, _, _ = _peel(v, idx, finish=True)
+    return concat_cycles(parts)
 
 
 def count_by_range(cycles: Cycles) -> tuple[np.ndarray, np.ndarray]:

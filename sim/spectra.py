@@ -343,6 +343,21 @@ class SeriesFigures:
     cycles: Cycles
 
 
+def _bin_index(edges: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Bin of each value as ``searchsorted(edges, x, "right") - 1`` clipped to the bins (the
+    record writer's rule); uses arithmetic on evenly spaced edges, corrected at the edges."""
+    nb = len(edges) - 1
+    width = (edges[-1] - edges[0]) / nb
+    if nb < 2 or not np.allclose(np.diff(edges), width, rtol=1e-12, atol=0.0):
+        return np.clip(np.searchsorted(edges, x, side="right") - 1, 0, nb - 1)
+    i = np.floor((x - edges[0]) / width)
+    np.clip(i, 0, nb - 1, out=i)
+    i = i.astype(np.intp)
+    i -= (x < edges[i]) & (i > 0)
+    i += (x >= edges[i + 1]) & (i < nb - 1)
+    return i
+
+
 class _JointAccumulator:
     def __init__(self, joint: str, te: np.ndarray, se: np.ndarray, dt: float,
                  levels: Sequence[float], hold_speed: float, hold_torque: float,
@@ -380,23 +395,26 @@ class _JointAccumulator:
             self.prev_above[k] = bool(ab[-1])
         self.first = False
         if self.maps is not None and contact is not None:
-            te, se = self.te, self.se
-            it = np.clip(np.searchsorted(te, tau, side="right") - 1, 0, len(te) - 2)
-            iw = np.clip(np.searchsorted(se, w, side="right") - 1, 0, len(se) - 2)
-            flat = it * (len(se) - 1) + iw
-            size = (len(te) - 1) * (len(se) - 1)
+            size = (len(self.te) - 1) * (len(self.se) - 1)
             shape = self.maps["stance"][0].shape
-            for key, m in (("stance", contact != 0), ("swing", contact == 0)):
-                f = flat[m]
+            swing = contact == 0
+            # one bincount per quantity: stance bins first, swing bins after them
+            flat = (_bin_index(self.te, tau) * (len(self.se) - 1) + _bin_index(self.se, w)
+                    + size * swing)
+            n2 = 2 * size
+            t_w = tau * aw
+            sums = (np.bincount(flat, minlength=n2) * dt,
+                    np.bincount(flat, weights=aw, minlength=n2) * (dt / TWO_PI),
+                    np.bincount(flat, weights=t_w, minlength=n2) * (dt / TWO_PI),
+                    np.bincount(flat, weights=tau, minlength=n2) * dt)
+            t2 = tau * tau
+            for k, (key, m) in enumerate((("stance", ~swing), ("swing", swing))):
                 acc = self.maps[key]
-                acc[0] += np.bincount(f, minlength=size).reshape(shape) * dt
-                acc[1] += np.bincount(f, weights=aw[m], minlength=size).reshape(shape) * (dt / TWO_PI)
-                acc[2] += np.bincount(f, weights=tau[m] * aw[m],
-                                      minlength=size).reshape(shape) * (dt / TWO_PI)
-                acc[3] += np.bincount(f, weights=tau[m], minlength=size).reshape(shape) * dt
-                t2 = float((tau[m] ** 2).sum()) * dt
-                peak = float(a[m].max()) if f.size else 0.0
-                self._extra[key] = (self._extra[key][0] + t2, max(self._extra[key][1], peak))
+                for q in range(4):
+                    acc[q] += sums[q][k * size:(k + 1) * size].reshape(shape)
+                sq = float(np.sum(t2, where=m)) * dt
+                peak = float(np.max(a, where=m, initial=0.0))
+                self._extra[key] = (self._extra[key][0] + sq, max(self._extra[key][1], peak))
 
     def result(self) -> SeriesFigures:
         dur = self.n * self.dt
@@ -550,7 +568,8 @@ def _weighted_series(parts: Sequence[tuple[SeriesFigures, float]],
         tuple(float(sum(f.upcrossings[k] * w for f, w in parts)) for k in range(len(f0.levels_nm))),
         tuple(float(sum(f.time_above_s[k] * w for f, w in parts))
               for k in range(len(f0.levels_nm))),
-        concat_cycles(f.cycles.scaled(w) for f, w in parts))
+        (parts[0][0].cycles.scaled(parts[0][1]) if len(parts) == 1
+         else concat_cycles(f.cycles.scaled(w) for f, w in parts)))
 
 
 @dataclass(frozen=True)

@@ -221,3 +221,17 @@ def test_joint_selection():
     assert select_joints(names, "fl_hip,hr_*") == ["fl_hip", "hr_knee"]
     with pytest.raises(InputError, match="--joints"):
         select_joints(names, "*_ankle")
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.floats(-60, 60) | st.sampled_from([-50.0, -1.0, 0.0, 0.3, 7.0, 50.0]),
+                min_size=1, max_size=50))
+def test_fast_binning_equals_the_record_writers_rule(xs):
+    # the record writer bins with searchsorted(edges, x, "right") - 1, clipped
+    from sim.spectra import _bin_index
+
+    x = np.asarray(xs, float)
+    for edges in (np.linspace(-50.0, 50.0, 101), np.linspace(-0.3, 0.9, 13),
+                  np.array([-5.0, 0.0, 1.0, 10.0])):
+        want = np.clip(np.searchsorted(edges, x, side="right") - 1, 0, len(edges) - 2)
+        assert np.array_equal(_bin_index(edges, x), want)
