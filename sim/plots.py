@@ -1,0 +1,99 @@
+"""Figures of duty spectra (matplotlib, Agg backend, imported only when a plot is asked for).
+
+Every figure is written atomically (temporary file beside the target, then ``os.replace``)
+and without a timestamp or software tag, so the same inputs give the same bytes.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from sim.rainflow import Cycles
+from sim.spectra import JointSpectrum, load_duration
+
+
+def _pyplot() -> Any:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+def _save(fig: Any, path: str | Path) -> Path:
+    p = Path(path)
+    p.parent.mkdir(parents=True, exist_ok=True)
+    tmp = p.with_name(f".{p.name}.{os.getpid()}.tmp")
+    try:
+        fig.savefig(tmp, format="png", dpi=100, metadata={"Software": None})
+        os.replace(tmp, p)
+    finally:
+        tmp.unlink(missing_ok=True)
+        _pyplot().close(fig)
+    return p
+
+
+def plot_time_at_level(spec: JointSpectrum, path: str | Path, title: str = "") -> Path:
+    """Torque x speed map of time at level (hours, log colour scale); empty bins blank."""
+    plt = _pyplot()
+    from matplotlib.colors import LogNorm
+
+    hours = spec.time_s / 3600.0
+    data = np.ma.masked_less_equal(hours, 0.0)
+    fig, ax = plt.subplots(figsize=(6.4, 4.8))
+    if data.count():
+        mesh = ax.pcolormesh(spec.speed_edges_rad_s, spec.torque_edges_nm, data,
+                             norm=LogNorm(vmin=float(data.min()), vmax=float(data.max())),
+                             shading="flat")
+        fig.colorbar(mesh, ax=ax, label="time at level (h)")
+    ax.set_xlabel("joint speed (rad/s)")
+    ax.set_ylabel("joint torque (N m)")
+    ax.set_title(title or f"{spec.joint}: time at level ({spec.source})")
+    return _save(fig, path)
+
+
+def plot_load_duration(spec: JointSpectrum, path: str | Path, title: str = "") -> Path:
+    """Load-duration curve: |torque| against hours at or above that torque."""
+    plt = _pyplot()
+    level, t = load_duration(spec)
+    fig, ax = plt.subplots(figsize=(6.4, 4.8))
+    if level.size:
+        ax.step(t / 3600.0, level, where="post")
+    ax.set_xlabel("time at or above the torque (h)")
+    ax.set_ylabel("|joint torque| (N m)")
+    ax.set_title(title or f"{spec.joint}: load-duration curve ({spec.source})")
+    ax.grid(True, alpha=0.3)
+    return _save(fig, path)
+
+
+def rainflow_edges(cycles: Cycles, bins: int = 20) -> tuple[np.ndarray, np.ndarray]:
+    """Range and mean edges covering all cycles, ``bins`` bins each."""
+    rmax = float(cycles.range.max()) if cycles.range.size else 1.0
+    lo = float(cycles.mean.min()) if cycles.mean.size else -1.0
+    hi = float(cycles.mean.max()) if cycles.mean.size else 1.0
+    if hi <= lo:
+        lo, hi = lo - 0.5, hi + 0.5
+    return np.linspace(0.0, rmax if rmax > 0 else 1.0, bins + 1), np.linspace(lo, hi, bins + 1)
+
+
+def plot_rainflow_matrix(cycles: Cycles, joint: str, path: str | Path, bins: int = 20) -> Path:
+    """Rainflow cycle matrix (range x mean), log colour scale of cycles."""
+    plt = _pyplot()
+    from matplotlib.colors import LogNorm
+
+    re_, me = rainflow_edges(cycles, bins)
+    m = np.ma.masked_less_equal(cycles.matrix(re_, me), 0.0)
+    fig, ax = plt.subplots(figsize=(6.4, 4.8))
+    if m.count():
+        mesh = ax.pcolormesh(me, re_, m, norm=LogNorm(vmin=float(m.min()), vmax=float(m.max())),
+                             shading="flat")
+        fig.colorbar(mesh, ax=ax, label="cycles")
+    ax.set_xlabel("cycle mean torque (N m)")
+    ax.set_ylabel("cycle torque range (N m)")
+    ax.set_title(f"{joint}: rainflow matrix (ASTM E1049-85, series)")
+    return _save(fig, path)
