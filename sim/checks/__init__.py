@@ -1,0 +1,1 @@
+"""Checks of drivetrain parts against duty spectra (reducer, motor, thermal, supply)."""
