@@ -56,8 +56,8 @@ def load_materials(path: str | Path = MATERIALS_FILE) -> dict[str, Material]:
     out: dict[str, Material] = {}
     for name, table in data.items():
         v = validate(table, _SPEC, file=path, prefix=name + ".")
-        out[name] = Material(name, v["description"],
-                             *(v[k]["value"] for k in _VALUE_KEYS),
+        values = {k: float(v[k]["value"]) for k in _VALUE_KEYS}
+        out[name] = Material(name=name, description=v["description"], **values,
                              sources=tuple((k, v[k]["source"]) for k in _VALUE_KEYS))
     return out
 
