@@ -236,3 +236,25 @@ def test_disc_mass_from_profile_area():
                                                                                      rel=1e-7)
     stage = c.cycloid_from_table(part_table(), "hip.toml")
     assert 0.005 < stage.disc_mass_kg < 0.05
+
+
+def test_check_reports_forces_under_the_spectrum_peak():
+    # the spectrum's peak torque drives the reported forces; closed form (Malhotra &
+    # Parameswaran 1983) and discrete pin sum agree within the discreteness of 12 pins
+    from sim.checks.reducer import CheckSettings, JointDuty, check_reducer
+    from sim.spectra import JointSpectrum
+    stage = c.cycloid_from_table(part_table(), "hip.toml")
+    spec = JointSpectrum("fl_hip", np.array([9.0, 11.0]), np.array([-10.0, 10.0]),
+                         np.array([[3600.0]]), np.array([[3600 * 2.0 / (2 * np.pi)]]), 3600.0,
+                         10.0)
+    sec = check_reducer(stage, JointDuty(spec), CheckSettings())
+    v = sec.values
+    assert v["peak_disc_torque_nm"] == pytest.approx(0.55 * 10.0)  # two discs, common practice
+    assert v["peak_pin_force_n"] == pytest.approx(v["peak_pin_force_closed_form_n"], rel=0.05)
+    assert v["peak_input_torque_per_disc_nm"] == pytest.approx(5.5 / 11)
+    w_in = 10.0 * 11  # largest speed-bin edge times the ratio
+    assert v["imbalance_force_n"] == pytest.approx(stage.disc_mass_kg * 0.0012 * w_in**2)
+    assert v["two_disc_couple_nm"] == pytest.approx(v["imbalance_force_n"] * 0.008)
+    names = [lim.name for lim in sec.limits]
+    assert names == ["eccentric bearing L10", "eccentric bearing static (ISO 76)",
+                     "ring pin / lobe contact (Hertz)", "output pin / hole contact (Hertz)"]

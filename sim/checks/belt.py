@@ -190,6 +190,13 @@ class BeltDrive(ReducerPart):
                                  detail={"slack_side_tension_n": st.pretension_n - pull / 2}))
         return out
 
+    def extra_values(self, duty: JointDuty) -> dict[str, Any]:
+        return {"stage_ratios": [st.ratio for st in self.stages],
+                "teeth_in_mesh": [st.teeth_in_mesh for st in self.stages],
+                "pitch_length_m": [st.pitch_length_m for st in self.stages],
+                "span_length_m": [st.span_length_m for st in self.stages],
+                "peak_effective_pull_n": self.pulls_n(duty.spectrum.peak_torque_nm)}
+
     def notes(self) -> list[str]:
         out = ["belt: fatigue life of belts not modelled (strength at the peak only)"]
         for k, st in enumerate(self.stages, 1):

@@ -377,16 +377,6 @@ class CycloidStage(ReducerPart):
                                        spec.peak_torque_nm,
                                        {"max_output_pin_force_n": per_nm["output_pin"] * peak_tc}
                                        ))
-        # imbalance at the fastest input speed seen (reported, not a limit)
-        w_in = max_speed_rad_s(spec) * self.ratio
-        out[0] = Limit(out[0].name, out[0].kind, out[0].utilisation, out[0].life_h, None,
-                       {**out[0].detail,
-                        "imbalance_force_n": imbalance_force_n(self.disc_mass_kg,
-                                                               self.eccentricity_m, w_in),
-                        "two_disc_couple_nm": two_disc_couple_nm(
-                            self.disc_mass_kg, self.eccentricity_m, w_in,
-                            self.disc_spacing_m) if self.discs == 2 else 0.0,
-                        "max_input_speed_rad_s": w_in})
         return out
 
     @staticmethod
@@ -397,6 +387,28 @@ class CycloidStage(ReducerPart):
         return Limit(name, "peak", use, allowable_peak_torque_nm=allow_t,
                      detail={"max_pressure_pa": pressure_pa,
                              "allowable_pressure_pa": allowable_pa, **extra})
+
+    def extra_values(self, duty: JointDuty) -> dict[str, Any]:
+        """Geometry, peak forces, input torque and imbalance (at the fastest input speed)."""
+        spec = duty.spectrum
+        tc = self.disc_torque_nm(spec.peak_torque_nm)
+        per_nm = self.forces_per_nm()
+        w_in = max_speed_rad_s(spec) * self.ratio
+        couple = two_disc_couple_nm(self.disc_mass_kg, self.eccentricity_m, w_in,
+                                    self.disc_spacing_m) if self.discs == 2 else None
+        return {"k1": self.k1, "min_curvature_radius_m": self.min_curvature_radius_m(),
+                "output_hole_diameter_m": self.output_hole_diameter_m,
+                "disc_mass_kg": self.disc_mass_kg, "peak_disc_torque_nm": tc,
+                "peak_pin_force_n": per_nm["ring_pin"] * tc,
+                "peak_pin_force_closed_form_n": max_pin_force_closed_form_n(
+                    self.ring_pins, self.eccentricity_m, tc),
+                "peak_output_pin_force_n": per_nm["output_pin"] * tc,
+                "peak_eccentric_bearing_load_n": per_nm["bearing"] * tc,
+                "peak_input_torque_per_disc_nm": self.input_torque_nm(spec.peak_torque_nm),
+                "max_input_speed_rad_s": w_in,
+                "imbalance_force_n": imbalance_force_n(self.disc_mass_kg, self.eccentricity_m,
+                                                       w_in),
+                "two_disc_couple_nm": couple}
 
     def notes(self) -> list[str]:
         return ["cycloid: ideal pin load sharing (no clearance) is a lower bound on pin force"]

@@ -182,6 +182,15 @@ class PlanetaryStage(ReducerPart):
                          detail={"static_load_n": p0, "static_safety": s0}))
         return out
 
+    def extra_values(self, duty: JointDuty) -> dict[str, Any]:
+        peak = duty.spectrum.peak_torque_nm
+        return {"sun_teeth": self.sun_teeth, "ring_teeth": self.ring_teeth,
+                "planet_teeth": self.planet_teeth, "planets": self.planets,
+                "peak_tangential_load_n": self.tangential_load_n(peak),
+                "peak_planet_bearing_load_n": self.planet_bearing_load_n(peak),
+                "pitch_line_speed_m_s": self.pitch_line_speed_m_s(
+                    max_speed_rad_s(duty.spectrum))}
+
     def notes(self) -> list[str]:
         if self.sun_teeth < 17:
             return [f"planetary: a {self.sun_teeth}-tooth 20 deg sun undercuts unless "

@@ -110,6 +110,10 @@ class ReducerPart:
     def notes(self) -> list[str]:
         return []
 
+    def extra_values(self, duty: JointDuty) -> dict[str, Any]:
+        """Kind-specific numbers for the report (geometry, loads); none by default."""
+        return {}
+
 
 def common_values(v: Mapping[str, Any], file: str) -> dict[str, Any]:
     """The common keys of a validated part table, as keyword arguments of ReducerPart."""
@@ -330,11 +334,13 @@ def check_reducer(part: ReducerPart, duty: JointDuty,
         "peak_torque_nm": spec.peak_torque_nm, "allowable_peak_torque_nm": allow,
         "peak_torque_ratio": spec.peak_torque_nm / allow if allow > 0 else math.inf,
         "duty_h": duty.hours, "mean_speed_rad_s": mean_abs_speed_rad_s(spec),
-        "equivalent_torque_nm": equivalent_torque_nm(spec, 10.0 / 3.0),
+        "equivalent_torque_nm": equivalent_torque_nm(
+            spec, float(getattr(part, "life_exponent", 10.0 / 3.0))),
         "backdrive_torque_nm": bd, "backdrivable": math.isfinite(bd),
         "reflected_inertia_kg_m2": reflected_inertia_kg_m2(part),
         "backlash_rad": part.backlash_rad, "efficiency_forward": part.efficiency_forward,
         "efficiency_back": part.efficiency_back, "safety_factor": settings.safety_factor,
+        **part.extra_values(duty),
     }
     notes = part.notes()
     notes.append("reflected inertia excludes the motor rotor (added by the motor check)")
