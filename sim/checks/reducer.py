@@ -1,0 +1,349 @@
+"""Reducer check: rated life, momentary peak torque and back-drivability from a duty spectrum.
+
+Any reducer by its ratings (kind ``"rated"``), or a home-made stage from its geometry (kinds
+``"cycloidal"``, ``"planetary"``, ``"belt"``, in their own modules), is checked against a
+joint's :class:`sim.spectra.JointSpectrum`. Torques and speeds are at the reducer OUTPUT (the
+joint), SI units.
+
+Rated life (the rating-point form of Palmgren's law, ISO 281 / Shigley ch. 11 applied to a
+reducer whose life-limiting rolling contacts carry loads proportional to output torque)::
+
+    L_h = L_rated (T_rated / T_eq)^p (n_rated / n_m)
+    T_eq = [sum |T_i|^p N_i / sum N_i]^(1/p)      revolution-weighted, N_i output revolutions
+    n_m  = sum |n_i| t_i / sum t_i                time-weighted mean |speed|
+
+``L_h`` is in hours of use: the hours the spectrum stands for. Damage per hour of use is
+``1/L_h`` (Palmgren-Miner); momentary-peak events add ``events_per_h / permitted_count``.
+
+Back-drivability: the output torque that turns the input against its drag,
+``T_bd = ratio (T_drag_in + T_motor_drag) / eta_back`` (self-locking when ``eta_back = 0``), and
+the inertia felt at the output, ``J_out = (J_rotor + J_in) ratio^2 + J_out_stage``.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from sim.checks.report import Limit, Section, section_from_limits
+from sim.config import Field, load_toml, validate
+from sim.errors import InputError
+from sim.spectra import JointSpectrum, equivalent_torque_nm, mean_abs_speed_rad_s
+
+KINDS = ("rated", "cycloidal", "planetary", "belt")
+
+NOT_MODELLED = (
+    "wear, lubrication, temperature and creep of printed parts",
+    "fatigue of printed-polymer teeth, lobes and pins (static strength only)",
+    "tolerances, clearances and profile modifications (ideal load sharing)",
+    "shaft, housing and fastener strength",
+)
+
+
+@dataclass(frozen=True)
+class CheckSettings:
+    """What the user asks for: life in hours of use, safety factor on material allowables
+    (and static bearing safety), and bearing reliability for the ISO 281 a1 factor."""
+
+    required_life_h: float = 1000.0
+    safety_factor: float = 1.5
+    reliability_pct: float = 90.0
+
+
+@dataclass(frozen=True)
+class JointDuty:
+    """A joint's duty: its spectrum and, when the time series is at hand, a counter of torque
+    excursions above a threshold (``count_events(threshold_nm) -> events in the duty``)."""
+
+    spectrum: JointSpectrum
+    count_events: Callable[[float], int] | None = None
+
+    @property
+    def hours(self) -> float:
+        return self.spectrum.duration_s / 3600.0
+
+
+# ---- common part data ---------------------------------------------------------------------
+
+COMMON_SPEC: dict[str, Any] = {
+    "kind": Field(str, choices=KINDS, required=True),
+    "name": Field(str, "a short name", default=""),
+    "description": Field(str, default=""),
+    "ratio": Field(float, "output/input speed reduction, > 1 (computed for geometry kinds; "
+                   "if given it must match)", min=1.0, min_inclusive=False),
+    "efficiency_forward": Field(float, "motor driving the joint", required=True, min=0.0,
+                                max=1.0, min_inclusive=False),
+    "efficiency_back": Field(float, "joint driving the motor; 0 = self-locking", required=True,
+                             min=0.0, max=1.0),
+    "backlash_rad": Field(float, "at the output", default=0.0, min=0.0),
+    "input_inertia_kg_m2": Field(float, "reducer inertia referred to its input", required=True,
+                                 min=0.0),
+    "output_inertia_kg_m2": Field(float, "stage inertia turning with the output", default=0.0,
+                                  min=0.0),
+    "input_drag_torque_nm": Field(float, "no-load drag at the input", default=0.0, min=0.0),
+}
+
+
+@dataclass(frozen=True, kw_only=True)
+class ReducerPart:
+    """What every reducer part exposes (the motor check uses ratio, efficiencies, inertia)."""
+
+    file: str
+    kind: str
+    name: str
+    ratio: float
+    efficiency_forward: float
+    efficiency_back: float
+    backlash_rad: float = 0.0
+    input_inertia_kg_m2: float = 0.0
+    output_inertia_kg_m2: float = 0.0
+    input_drag_torque_nm: float = 0.0
+
+    def limits(self, duty: JointDuty, settings: CheckSettings) -> list[Limit]:
+        raise NotImplementedError  # each kind provides its own
+
+    def notes(self) -> list[str]:
+        return []
+
+    def extra_values(self, duty: JointDuty) -> dict[str, Any]:
+        """Kind-specific numbers for the report (geometry, loads); none by default."""
+        return {}
+
+
+def common_values(v: Mapping[str, Any], file: str) -> dict[str, Any]:
+    """The common keys of a validated part table, as keyword arguments of ReducerPart."""
+    return {"file": file, "kind": v["kind"], "name": v["name"] or Path(file).stem,
+            "efficiency_forward": v["efficiency_forward"],
+            "efficiency_back": v["efficiency_back"], "backlash_rad": v["backlash_rad"],
+            "input_inertia_kg_m2": v["input_inertia_kg_m2"],
+            "output_inertia_kg_m2": v["output_inertia_kg_m2"],
+            "input_drag_torque_nm": v["input_drag_torque_nm"]}
+
+
+def check_stated_ratio(v: Mapping[str, Any], computed: float, file: str) -> None:
+    """A geometry part may state its ratio for readability; it must match the geometry."""
+    if v.get("ratio") is not None and not math.isclose(v["ratio"], computed, rel_tol=1e-6):
+        raise InputError(file, "ratio", f"the ratio the geometry gives, {computed:.6g}",
+                         v["ratio"])
+
+
+# ---- rated-life formula and its inverse ---------------------------------------------------
+
+def rated_life_h(rated_torque_nm: float, rated_speed_rad_s: float, rated_life_h_: float,
+                 exponent: float, equivalent_torque_nm_: float, mean_speed_rad_s: float) -> float:
+    """``L_rated (T_rated/T_eq)^p (n_rated/n_m)`` in hours; infinite if nothing turns."""
+    if equivalent_torque_nm_ <= 0.0 or mean_speed_rad_s <= 0.0:
+        return math.inf
+    return rated_life_h_ * (rated_torque_nm / equivalent_torque_nm_) ** exponent \
+        * (rated_speed_rad_s / mean_speed_rad_s)
+
+
+def allowable_equivalent_torque_nm(rated_torque_nm: float, rated_speed_rad_s: float,
+                                   rated_life_h_: float, exponent: float, life_h: float,
+                                   mean_speed_rad_s: float) -> float:
+    """Inverse of :func:`rated_life_h`: the T_eq that gives ``life_h`` at ``n_m``."""
+    if mean_speed_rad_s <= 0.0:
+        return math.inf
+    return rated_torque_nm * (rated_life_h_ * rated_speed_rad_s
+                              / (life_h * mean_speed_rad_s)) ** (1.0 / exponent)
+
+
+def count_excursions(abs_torque_nm: np.ndarray, threshold_nm: float,
+                     was_above: bool = False) -> tuple[int, bool]:
+    """Number of times |T| rises above ``threshold_nm`` in a series ``[sample]``.
+
+    ``was_above`` carries the state across chunks; returns ``(count, last_above)``.
+    """
+    above = np.asarray(abs_torque_nm) > threshold_nm
+    if above.size == 0:
+        return 0, was_above
+    prev = np.concatenate(([was_above], above[:-1]))
+    return int(np.count_nonzero(above & ~prev)), bool(above[-1])
+
+
+def max_speed_rad_s(spec: JointSpectrum) -> float:
+    """Upper bound of |speed| over the occupied speed bins (rad/s)."""
+    occupied = spec.time_s.sum(axis=0) > 0
+    if not occupied.any():
+        return 0.0
+    e = np.abs(spec.speed_edges_rad_s)
+    upper = np.maximum(e[:-1], e[1:])
+    return float(upper[occupied].max())
+
+
+# ---- back-drivability ---------------------------------------------------------------------
+
+def backdrive_torque_nm(part: ReducerPart, motor_drag_torque_nm: float = 0.0) -> float:
+    """Output torque needed to back-drive: ``ratio (T_drag_in + T_motor)/eta_back`` (N m).
+
+    Infinite when the reducer is self-locking (``efficiency_back == 0``).
+    """
+    if part.efficiency_back <= 0.0:
+        return math.inf
+    return part.ratio * (part.input_drag_torque_nm + motor_drag_torque_nm) / part.efficiency_back
+
+
+def reflected_inertia_kg_m2(part: ReducerPart, rotor_inertia_kg_m2: float = 0.0) -> float:
+    """Inertia felt at the output: ``(J_rotor + J_in) ratio^2 + J_out`` (kg m^2)."""
+    return (rotor_inertia_kg_m2 + part.input_inertia_kg_m2) * part.ratio**2 \
+        + part.output_inertia_kg_m2
+
+
+# ---- any reducer by its ratings -----------------------------------------------------------
+
+RATED_SPEC: dict[str, Any] = {
+    **COMMON_SPEC,
+    "rated_torque_nm": Field(float, "output torque of the rating point", required=True,
+                             min=0.0, min_inclusive=False),
+    "rated_speed_rad_s": Field(float, "output speed of the rating point", required=True,
+                               min=0.0, min_inclusive=False),
+    "rated_life_h": Field(float, "L10 life at the rating point, hours", required=True, min=0.0,
+                          min_inclusive=False),
+    "life_exponent": Field(float, "p: 10/3 roller-limited, 3 ball-limited", default=10.0 / 3.0,
+                           min=1.0),
+    "momentary_peak_torque_nm": Field(float, "never-exceed output torque", required=True,
+                                      min=0.0, min_inclusive=False),
+    "peak_count": Field(int, "permitted number of momentary-peak events over the life", min=1),
+    "repeated_peak_torque_nm": Field(float, "torque above which an excursion counts as a "
+                                     "momentary-peak event", min=0.0, min_inclusive=False),
+}
+
+
+@dataclass(frozen=True, kw_only=True)
+class RatedReducer(ReducerPart):
+    """A bought reducer described by the maker's rating point and limits."""
+
+    rated_torque_nm: float
+    rated_speed_rad_s: float
+    rated_life_h: float
+    life_exponent: float = 10.0 / 3.0
+    momentary_peak_torque_nm: float
+    peak_count: int | None = None
+    repeated_peak_torque_nm: float | None = None
+
+    def life_h(self, spec: JointSpectrum) -> float:
+        """Fatigue life in hours of use under ``spec`` (rated-life formula)."""
+        p = self.life_exponent
+        return rated_life_h(self.rated_torque_nm, self.rated_speed_rad_s, self.rated_life_h, p,
+                            equivalent_torque_nm(spec, p), mean_abs_speed_rad_s(spec))
+
+    def allowable_torque_nm(self, life_h: float, mean_speed_rad_s: float) -> float:
+        """Equivalent torque giving ``life_h`` hours at mean speed (inverse of life_h)."""
+        return allowable_equivalent_torque_nm(self.rated_torque_nm, self.rated_speed_rad_s,
+                                              self.rated_life_h, self.life_exponent, life_h,
+                                              mean_speed_rad_s)
+
+    def limits(self, duty: JointDuty, settings: CheckSettings) -> list[Limit]:
+        spec = duty.spectrum
+        fatigue_h = self.life_h(spec)
+        damage = 0.0 if math.isinf(fatigue_h) else 1.0 / fatigue_h
+        detail: dict[str, Any] = {"fatigue_life_h": fatigue_h}
+        if self.peak_count is not None and self.repeated_peak_torque_nm is not None \
+                and duty.count_events is not None and duty.hours > 0:
+            events = duty.count_events(self.repeated_peak_torque_nm)
+            per_h = events / duty.hours
+            detail["peak_events_per_h"] = per_h
+            detail["peak_event_life_h"] = math.inf if per_h == 0 else self.peak_count / per_h
+            damage += per_h / self.peak_count
+        life = math.inf if damage == 0 else 1.0 / damage
+        peak = spec.peak_torque_nm
+        return [
+            Limit("rated life", "life", settings.required_life_h / life, life_h=life,
+                  detail=detail),
+            Limit("momentary peak torque", "peak", peak / self.momentary_peak_torque_nm,
+                  allowable_peak_torque_nm=self.momentary_peak_torque_nm),
+        ]
+
+    def notes(self) -> list[str]:
+        out = []
+        if self.peak_count is not None and self.repeated_peak_torque_nm is None:
+            out.append("peak_count given without repeated_peak_torque_nm: events not counted")
+        return out
+
+
+def rated_from_table(data: Mapping[str, Any], file: str) -> RatedReducer:
+    v = validate(data, RATED_SPEC, file=file)
+    if v["ratio"] is None:
+        raise InputError(file, "ratio", "this key for a rated reducer: a number > 1")
+    if v["peak_count"] is not None and v["repeated_peak_torque_nm"] is None:
+        raise InputError(file, "repeated_peak_torque_nm",
+                         "a threshold (N m) when peak_count is given")
+    return RatedReducer(**common_values(v, file), ratio=v["ratio"],
+                        rated_torque_nm=v["rated_torque_nm"],
+                        rated_speed_rad_s=v["rated_speed_rad_s"],
+                        rated_life_h=v["rated_life_h"], life_exponent=v["life_exponent"],
+                        momentary_peak_torque_nm=v["momentary_peak_torque_nm"],
+                        peak_count=v["peak_count"],
+                        repeated_peak_torque_nm=v["repeated_peak_torque_nm"])
+
+
+# ---- loading any part and checking a joint ------------------------------------------------
+
+def reducer_from_table(data: Mapping[str, Any], file: str) -> ReducerPart:
+    """Build the part of the kind named in ``data['kind']``."""
+    kind = data.get("kind")
+    if kind not in KINDS:
+        raise InputError(file, "kind", "one of " + ", ".join(repr(k) for k in KINDS), kind)
+    if kind == "rated":
+        return rated_from_table(data, file)
+    if kind == "cycloidal":
+        from sim.checks.cycloid import cycloid_from_table
+        return cycloid_from_table(data, file)
+    if kind == "planetary":
+        from sim.checks.planetary import planetary_from_table
+        return planetary_from_table(data, file)
+    from sim.checks.belt import belt_from_table
+    return belt_from_table(data, file)
+
+
+def load_reducer_part(path: str | Path) -> ReducerPart:
+    """Read a reducer part file (any kind)."""
+    return reducer_from_table(load_toml(path, "reducer part file"), str(path))
+
+
+REDUCER_COLUMNS: tuple[tuple[str, str, str], ...] = (
+    ("ratio", "ratio", ".3g"),
+    ("peak_torque_nm", "peak N m", ".1f"),
+    ("allowable_peak_torque_nm", "allow N m", ".1f"),
+    ("peak_torque_ratio", "peak ratio", ".2f"),
+    ("life_h", "life h", ".3g"),
+    ("backdrive_torque_nm", "back-drive N m", ".2f"),
+)
+
+
+def check_reducer(part: ReducerPart, duty: JointDuty,
+                  settings: CheckSettings = CheckSettings()) -> Section:
+    """Check one joint's reducer against its duty; the ``"reducer"`` section of the report."""
+    spec = duty.spectrum
+    limits = part.limits(duty, settings)
+    lives = [lim.life_h for lim in limits if lim.life_h is not None]
+    life = min(lives) if lives else math.inf
+    peaks = [lim.allowable_peak_torque_nm for lim in limits
+             if lim.allowable_peak_torque_nm is not None]
+    allow = min(peaks) if peaks else math.inf
+    bd = backdrive_torque_nm(part)
+    values = {
+        "kind": part.kind, "part": part.file, "ratio": part.ratio,
+        "life_h": life, "required_life_h": settings.required_life_h,
+        "damage_per_h": 0.0 if math.isinf(life) else 1.0 / life,
+        "peak_torque_nm": spec.peak_torque_nm, "allowable_peak_torque_nm": allow,
+        "peak_torque_ratio": spec.peak_torque_nm / allow if allow > 0 else math.inf,
+        "duty_h": duty.hours, "mean_speed_rad_s": mean_abs_speed_rad_s(spec),
+        "equivalent_torque_nm": equivalent_torque_nm(
+            spec, float(getattr(part, "life_exponent", 10.0 / 3.0))),
+        "backdrive_torque_nm": bd, "backdrivable": math.isfinite(bd),
+        "reflected_inertia_kg_m2": reflected_inertia_kg_m2(part),
+        "backlash_rad": part.backlash_rad, "efficiency_forward": part.efficiency_forward,
+        "efficiency_back": part.efficiency_back, "safety_factor": settings.safety_factor,
+        **part.extra_values(duty),
+    }
+    notes = part.notes()
+    notes.append("reflected inertia excludes the motor rotor (added by the motor check)")
+    if duty.count_events is None and getattr(part, "peak_count", None) is not None:
+        notes.append("momentary-peak events not counted (no time series for this input)")
+    return section_from_limits("reducer", limits, values, REDUCER_COLUMNS, notes)

@@ -1,0 +1,159 @@
+"""``gaitload check RECORD_OR_MIX --drivetrain FILE``: reducers against the duty spectra.
+
+Reads the duty (a run record now; a usage mix once ``sim.mix`` exists, see
+:func:`mix_spectra`), loads the drivetrain, checks each joint's reducer and prints a table
+(or JSON with ``--json``). Exit code 0 when every joint passes, 1 when any fails, 2 on bad
+input (nothing is written then). Further sections (motor, supply) are added to the same
+report with :func:`sim.checks.report.add_section`.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+from collections.abc import Callable, Sequence
+from pathlib import Path
+
+import numpy as np
+
+from sim.checks.reducer import (
+    NOT_MODELLED,
+    CheckSettings,
+    JointDuty,
+    check_reducer,
+    count_excursions,
+)
+from sim.checks.report import (
+    CheckReport,
+    add_not_modelled,
+    add_section,
+    exit_code,
+    render_table,
+    to_json,
+)
+from sim.drivetrain import Drivetrain, load_drivetrain
+from sim.errors import InputError
+from sim.record import open_record
+from sim.spectra import JointSpectrum, spectrum_from_record
+
+HELP = "check reducers, motors and supply against the spectra"
+
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("duty", metavar="RECORD_OR_MIX",
+                        help="a run record (.h5) or a usage mix (.toml)")
+    parser.add_argument("--drivetrain", required=True, metavar="FILE",
+                        help="drivetrain file assigning reducer (and motor) parts to joints")
+    parser.add_argument("--json", action="store_true", help="print only JSON on stdout")
+    parser.add_argument("--plot", metavar="DIR",
+                        help="write figures and cycloid disc profiles (CSV, SVG) to DIR")
+    parser.add_argument("--required-life-h", type=float, default=1000.0,
+                        help="required life in hours of use (default 1000)")
+    parser.add_argument("--safety-factor", type=float, default=1.5,
+                        help="on material allowables and bearing static safety (default 1.5)")
+    parser.add_argument("--reliability", type=float, default=90.0,
+                        help="bearing reliability in %% for the ISO 281 a1 factor (default 90)")
+    parser.add_argument("--allow-failed", action="store_true",
+                        help="accept a record whose run fell or diverged")
+
+
+def settings_from_args(args: argparse.Namespace) -> CheckSettings:
+    if not (args.required_life_h > 0 and math.isfinite(args.required_life_h)):
+        raise InputError("--required-life-h", None, "a positive number of hours",
+                         args.required_life_h)
+    if not (args.safety_factor >= 1.0 and math.isfinite(args.safety_factor)):
+        raise InputError("--safety-factor", None, "a number >= 1", args.safety_factor)
+    if not 90.0 <= args.reliability < 100.0:
+        raise InputError("--reliability", None, "a percentage in [90, 100)", args.reliability)
+    return CheckSettings(args.required_life_h, args.safety_factor, args.reliability)
+
+
+# ---- duty input ---------------------------------------------------------------------------
+
+def mix_spectra(path: Path, joints: Sequence[str]) -> dict[str, JointSpectrum]:
+    """Spectra of a usage mix (TOML listing records with hours per day).
+
+    THE ONE-LINE SWAP: once ``sim.mix`` exists, replace the ``raise`` below with
+    ``return sim.spectra.usage_spectra(sim.mix.resolve_usage(path), joints)``.
+    """
+    raise InputError(str(path), None, "a run record (.h5); usage mixes are not readable "
+                     "in this build yet")
+
+
+def _event_counter(path: Path, joint: str) -> Callable[[float], int]:
+    def count(threshold_nm: float) -> int:
+        total, above = 0, False
+        with open_record(path) as rec:
+            for _, (tau,) in rec.iter_chunks([f"joints/{joint}/torque_nm"]):
+                n, above = count_excursions(np.abs(tau), threshold_nm, above)
+                total += n
+        return total
+    return count
+
+
+def load_duties(path: str | Path, joints: Sequence[str], allow_failed: bool = False
+                ) -> dict[str, JointDuty]:
+    """Per-joint duties from a record (with peak-event counting) or a usage mix."""
+    p = Path(path)
+    if p.suffix.lower() == ".toml":
+        return {j: JointDuty(s) for j, s in mix_spectra(p, joints).items()}
+    with open_record(p) as rec:
+        rec.require_completed(allow_failed)
+        present = [j for j in joints if j in rec.joint_names]
+        if not present:
+            raise InputError(str(p), None, "a record holding the drivetrain's joints: "
+                             + ", ".join(joints), ", ".join(rec.joint_names))
+        return {j: JointDuty(spectrum_from_record(rec, j), _event_counter(p, j))
+                for j in present}
+
+
+# ---- the check ----------------------------------------------------------------------------
+
+def build_report(drivetrain: Drivetrain, duties: dict[str, JointDuty],
+                 settings: CheckSettings, inputs: dict | None = None) -> CheckReport:
+    """The reducer section of every joint that has both a reducer and a duty."""
+    report = CheckReport(inputs={**(inputs or {}),
+                                 "required_life_h": settings.required_life_h,
+                                 "safety_factor": settings.safety_factor,
+                                 "reliability_pct": settings.reliability_pct})
+    for joint, drive in drivetrain.joints.items():
+        if drive.reducer is None or joint not in duties:
+            continue
+        report = add_section(report, joint, check_reducer(drive.reducer, duties[joint],
+                                                          settings))
+    extra = ["series decimation may hide short torque peaks when counting peak events"]
+    return add_not_modelled(report, [*NOT_MODELLED, *extra])
+
+
+def write_plots(report: CheckReport, drivetrain: Drivetrain, out_dir: Path) -> list[Path]:
+    from sim.checks.cycloid import CycloidStage, write_profile_csv, write_profile_svg
+    from sim.checks.plots import plot_utilisation
+
+    written = [plot_utilisation(report, out_dir / "reducer_utilisation.svg")]
+    seen: set[str] = set()
+    for drive in drivetrain.joints.values():
+        part = drive.reducer
+        if isinstance(part, CycloidStage) and part.file not in seen:
+            seen.add(part.file)
+            stem = Path(part.file).stem
+            written.append(write_profile_csv(part, out_dir / f"{stem}_disc_profile.csv"))
+            written.append(write_profile_svg(part, out_dir / f"{stem}_disc_profile.svg"))
+    return written
+
+
+def execute(args: argparse.Namespace) -> int:
+    settings = settings_from_args(args)
+    drivetrain = load_drivetrain(args.drivetrain)
+    duties = load_duties(args.duty, list(drivetrain.joints), args.allow_failed)
+    report = build_report(drivetrain, duties, settings,
+                          {"duty": str(args.duty), "drivetrain": str(args.drivetrain)})
+    if not report.joints:
+        raise InputError(str(args.drivetrain), "joint",
+                         "at least one joint with a reducer and a duty")
+    if args.plot:
+        write_plots(report, drivetrain, Path(args.plot))
+    if args.json:
+        print(to_json(report), end="")
+    else:
+        print(render_table(report), end="")
+    return exit_code(report)
