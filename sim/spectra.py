@@ -34,7 +34,7 @@ from sim.rainflow import BasquinCurve, Cycles, ReversalStream, concat_cycles, mi
 from sim.record import RunRecord, open_record
 
 TWO_PI = 2.0 * math.pi
-DEFAULT_EXPONENTS: tuple[str, ...] = ("3", "10/3")
+DEFAULT_EXPONENTS: tuple[str, ...] = ("3", "3.333")  # keys as in the documented JSON
 DEFAULT_HOLD_SPEED_RAD_S = 0.1
 DEFAULT_HOLD_TORQUE_NM = 0.5
 DEFAULT_LEVEL_SHARES = (0.5, 0.75, 0.9)

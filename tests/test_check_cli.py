@@ -82,8 +82,9 @@ def test_plots_and_profiles_are_reproducible(record, tmp_path, capsys):
     assert main(["check", str(record), "--drivetrain", DEMO, "--plot", str(a)]) == 0
     assert main(["check", str(record), "--drivetrain", DEMO, "--plot", str(b)]) == 0
     names = sorted(p.name for p in a.iterdir())
-    assert names == ["reducer_hip_cycloid_disc_profile.csv",
-                     "reducer_hip_cycloid_disc_profile.svg", "reducer_utilisation.svg"]
+    assert {"reducer_hip_cycloid_disc_profile.csv", "reducer_hip_cycloid_disc_profile.svg",
+            "reducer_utilisation.svg", "winding_temperature.png", "bus_current.png",
+            "motor_envelope_fl_knee.png"} <= set(names)
     for n in names:
         assert (a / n).read_bytes() == (b / n).read_bytes()
 
@@ -162,3 +163,32 @@ def test_another_section_joins_the_same_json(record):
     assert set(data["joints"]["fl_knee"]) == {"reducer", "motor"}
     assert data["joints"]["fl_knee"]["motor"]["winding_temp_c"] == 160.0
     assert exit_code(report) == 1
+
+
+def test_mix_check_has_reducer_motor_and_supply_sections(record, tmp_path, capsys):
+    # the documented JSON shape of the combined check over a usage mix of one record
+    mix = tmp_path / "usage.toml"
+    mix.write_text(f"""# a test mix: the record stands for two hours of use per day
+[[duty]]
+name = "trot"
+record = "{record}"
+hours_per_day = 2.0
+""")
+    code = main(["check", str(mix), "--drivetrain", DEMO, "--json"])
+    doc = json.loads(capsys.readouterr().out)
+    assert code in (0, 1)
+    knee = doc["joints"]["fl_knee"]
+    assert {"life_h", "peak_torque_ratio", "governing", "verdict"} <= set(knee["reducer"])
+    assert {"winding_peak_c", "rms_torque_ratio", "outside_envelope_s", "verdict"} <= set(
+        knee["motor"])
+    assert {"peak_current_a", "rms_current_a", "energy_wh_per_h", "cost_of_transport"} <= set(
+        doc["supply"])
+    # the same record given directly: motor temperatures do not depend on hours per day
+    main(["check", str(record), "--drivetrain", DEMO, "--json"])
+    single = json.loads(capsys.readouterr().out)
+    assert single["joints"]["fl_knee"]["motor"]["winding_peak_c"] == pytest.approx(
+        knee["motor"]["winding_peak_c"], rel=1e-9)
+    # reducer life in hours of use is the same; a mix only rescales the day
+    a, b = single["joints"]["fl_knee"]["reducer"]["life_h"], knee["reducer"]["life_h"]
+    if a is not None:
+        assert b == pytest.approx(a, rel=1e-6)

@@ -46,7 +46,8 @@ def test_demo_drivetrain_matches_the_demo_ratios():
     assert dt.joints["fl_abad"].reducer.ratio == 7.0
     assert dt.joints["fl_hip"].reducer.ratio == 11.0
     assert dt.joints["fl_knee"].reducer.ratio == pytest.approx(9.0)
-    assert dt.joints["fl_knee"].motor_path is None and dt.supply is None
+    assert dt.joints["fl_knee"].motor_path.name == "motor_demo.toml"
+    assert dt.supply is not None and dt.supply["bus_voltage_v"] == 24.0
     # one part object shared by every joint that names the same file
     assert dt.joints["fl_knee"].reducer is dt.joints["hr_knee"].reducer
 

@@ -54,7 +54,7 @@ def test_json_has_the_issue_keys_and_library_values(rec, capsys):
 def test_default_exponents_and_joint_pattern(rec, capsys):
     code, d, _ = _json(capsys, ["loads", str(rec), "--json", "--joints", "*_knee"])
     assert code == 0 and list(d["joints"]) == ["fl_knee"]
-    assert list(d["joints"]["fl_knee"]["equivalent_torque_nm"]) == ["3", "10/3"]
+    assert list(d["joints"]["fl_knee"]["equivalent_torque_nm"]) == ["3", "3.333"]
 
 
 def test_sn_curve_gives_damage_and_life(rec, capsys):

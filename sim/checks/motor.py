@@ -411,6 +411,9 @@ def _none_if_inf(x: float | None) -> float | None:
     return float(x)
 
 
+MIN_TRAVEL_SPEED_M_S = 0.02  # below this mean speed, energy per metre is not reported
+
+
 @dataclass(frozen=True)
 class MotorReport:
     """Motor and supply check over one record or a usage mix (weights = hours per day)."""
@@ -488,8 +491,11 @@ class MotorReport:
         speed_m_s = None if any(d is None for d in dist) else wavg(
             (d or 0.0) / r.duration_s for d, r in zip(dist, recs, strict=True))
         mass = recs[0].total_mass_kg
-        per_m = drawn_w / speed_m_s if speed_m_s else None
-        cot = drawn_w / (mass * 9.80665 * speed_m_s) if (speed_m_s and mass > 0) else None
+        # standing still (or drifting) has no meaningful energy per metre
+        moving = speed_m_s is not None and speed_m_s >= MIN_TRAVEL_SPEED_M_S
+        per_m = drawn_w / speed_m_s if (moving and speed_m_s) else None
+        cot = (drawn_w / (mass * 9.80665 * speed_m_s)
+               if (moving and speed_m_s and mass > 0) else None)
         v_oc = self.supply.bus_voltage_v
         return {
             "peak_current_a": max(r.peak_current_a for r in recs),
@@ -947,16 +953,10 @@ def _usage_entries(source: Any) -> list[tuple[str, float]]:
     if isinstance(source, str | Path):
         p = Path(source)
         if p.suffix.lower() == ".toml":
-            try:
-                from sim import mix  # type: ignore[attr-defined]
-            except ImportError:
-                raise InputError(str(p), None, "a run record (usage mixes need sim.mix)") from None
-            out = []
-            for e in mix.resolve_usage(p):
-                rec = getattr(e, "record", None) or getattr(e, "path", None) or e[0]
-                hours = getattr(e, "hours_per_day", None)
-                out.append((str(rec), float(e[1] if hours is None else hours)))
-            return out
+            from sim.mix import resolve_usage
+
+            return [(str(e.path), e.hours_per_day) for e in resolve_usage(p).entries
+                    if e.kind == "duty"]
         return [(str(p), 1.0)]
     out = [(str(r), float(h)) for r, h in source]
     if not out:

@@ -108,6 +108,8 @@ class CheckReport:
     inputs: Mapping[str, Any] = field(default_factory=dict)
     not_modelled: tuple[str, ...] = ()
     cautions: tuple[str, ...] = CAUTIONS
+    supply: Mapping[str, Any] = field(default_factory=dict)  # whole-robot supply figures
+    supply_text: tuple[str, ...] = ()  # lines shown under the tables
 
 
 def add_section(report: CheckReport, joint: str, section: Section) -> CheckReport:
@@ -148,6 +150,7 @@ def to_json_dict(report: CheckReport) -> dict[str, Any]:
                    for j, secs in report.joints.items()},
         "verdict": PASS if exit_code(report) == 0 else FAIL,
         "inputs": dict(report.inputs),
+        **({"supply": dict(report.supply)} if report.supply else {}),
         "not_modelled": list(report.not_modelled),
         "cautions": list(report.cautions),
     }
@@ -187,6 +190,10 @@ def render_table(report: CheckReport) -> str:
         notes = sorted({n for _, s in rows for n in s.notes})
         for n in notes:
             lines.append(f"  note: {n}")
+        lines.append("")
+    if report.supply_text:
+        lines.append("[supply]")
+        lines.extend(report.supply_text)
         lines.append("")
     if report.not_modelled:
         lines.append("Not modelled: " + "; ".join(report.not_modelled) + ".")

@@ -12,6 +12,7 @@ from __future__ import annotations
 import argparse
 import math
 from collections.abc import Callable, Sequence
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -25,6 +26,7 @@ from sim.checks.reducer import (
 )
 from sim.checks.report import (
     CheckReport,
+    Section,
     add_not_modelled,
     add_section,
     exit_code,
@@ -33,8 +35,9 @@ from sim.checks.report import (
 )
 from sim.drivetrain import Drivetrain, load_drivetrain
 from sim.errors import InputError
+from sim.mix import resolve_usage
 from sim.record import open_record
-from sim.spectra import JointSpectrum, spectrum_from_record
+from sim.spectra import JointSpectrum, spectrum_from_record, usage_spectra
 
 HELP = "check reducers, motors and supply against the spectra"
 
@@ -55,6 +58,9 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="bearing reliability in %% for the ISO 281 a1 factor (default 90)")
     parser.add_argument("--allow-failed", action="store_true",
                         help="accept a record whose run fell or diverged")
+    parser.add_argument("--mission-h", type=float, default=None,
+                        help="also judge winding temperature over a mission of this many hours "
+                             "from cold (default: continuous running, periodic steady state)")
 
 
 def settings_from_args(args: argparse.Namespace) -> CheckSettings:
@@ -70,14 +76,10 @@ def settings_from_args(args: argparse.Namespace) -> CheckSettings:
 
 # ---- duty input ---------------------------------------------------------------------------
 
-def mix_spectra(path: Path, joints: Sequence[str]) -> dict[str, JointSpectrum]:
-    """Spectra of a usage mix (TOML listing records with hours per day).
-
-    THE ONE-LINE SWAP: once ``sim.mix`` exists, replace the ``raise`` below with
-    ``return sim.spectra.usage_spectra(sim.mix.resolve_usage(path), joints)``.
-    """
-    raise InputError(str(path), None, "a run record (.h5); usage mixes are not readable "
-                     "in this build yet")
+def mix_spectra(path: Path, joints: Sequence[str], allow_failed: bool = False
+                ) -> dict[str, JointSpectrum]:
+    """Spectra of a usage mix (TOML listing records with hours per day), for one day of use."""
+    return usage_spectra(resolve_usage(path), joints, allow_failed=allow_failed)
 
 
 def _event_counter(path: Path, joint: str) -> Callable[[float], int]:
@@ -96,7 +98,7 @@ def load_duties(path: str | Path, joints: Sequence[str], allow_failed: bool = Fa
     """Per-joint duties from a record (with peak-event counting) or a usage mix."""
     p = Path(path)
     if p.suffix.lower() == ".toml":
-        return {j: JointDuty(s) for j, s in mix_spectra(p, joints).items()}
+        return {j: JointDuty(s) for j, s in mix_spectra(p, joints, allow_failed).items()}
     with open_record(p) as rec:
         rec.require_completed(allow_failed)
         present = [j for j in joints if j in rec.joint_names]
@@ -125,6 +127,74 @@ def build_report(drivetrain: Drivetrain, duties: dict[str, JointDuty],
     return add_not_modelled(report, [*NOT_MODELLED, *extra])
 
 
+MOTOR_COLUMNS = (("winding_peak_c", "winding peak C", ".1f"),
+                 ("winding_limit_c", "limit C", ".0f"),
+                 ("rms_torque_ratio", "rms/continuous", ".2f"),
+                 ("peak_torque_ratio", "peak/rating", ".2f"),
+                 ("outside_envelope_s", "outside envelope s", ".3f"))
+
+
+def motor_duty_source(path: Path) -> str | list[tuple[str, float]]:
+    """A record path, or ``[(record, hours_per_day), ...]`` of a usage mix's duties."""
+    if path.suffix.lower() != ".toml":
+        return str(path)
+    duties = [(str(e.path), e.hours_per_day) for e in resolve_usage(path).entries
+              if e.kind == "duty"]
+    if not duties:
+        raise InputError(str(path), "duty", "at least one duty record for the motor check")
+    return duties
+
+
+def add_motor_checks(report: CheckReport, drivetrain: Drivetrain, duty: Path,
+                     mission_h: float | None, allow_failed: bool):
+    """Add a ``motor`` section per joint with a motor, and the whole-robot supply figures."""
+    from sim.checks.motor import check_motors, load_motor_part
+    from sim.checks.supply import load_supply
+
+    with_motor = {j: d for j, d in drivetrain.joints.items()
+                  if d.motor_path is not None and d.reducer is not None}
+    if not with_motor:
+        return report, None
+    if not drivetrain.supply:
+        raise InputError(drivetrain.file, "supply",
+                         "a [supply] table when motors are assigned")
+    supply = load_supply(dict(drivetrain.supply), drivetrain.file)
+    parts: dict[str, object] = {}
+    drives = {}
+    for j, d in with_motor.items():
+        assert d.motor_path is not None and d.reducer is not None
+        key = str(d.motor_path)
+        if key not in parts:
+            parts[key] = load_motor_part(d.motor_path)
+        red = d.reducer
+        drives[j] = (parts[key], red.ratio, red.efficiency_forward, red.efficiency_back,
+                     red.input_inertia_kg_m2)
+    if mission_h is not None and not (mission_h > 0 and math.isfinite(mission_h)):
+        raise InputError("--mission-h", None, "a positive number of hours", mission_h)
+    mrep = check_motors(motor_duty_source(duty), drives, supply,
+                        mission_s=None if mission_h is None else mission_h * 3600.0,
+                        allow_failed=allow_failed)
+    for j in drives:
+        js = mrep.joint_summary(j)
+        reasons = js.get("fail_reasons") or []
+        ratios = {"winding temperature": (js["winding_peak_c"] or math.inf)
+                  / js["winding_limit_c"], "rms torque": js["rms_torque_ratio"],
+                  "peak torque": js["peak_torque_ratio"]}
+        governing = reasons[0] if reasons else max(ratios, key=lambda k: ratios[k])
+        values = {k: v for k, v in js.items() if k not in ("verdict", "fail_reasons")}
+        values["fail_reasons"] = list(reasons)
+        report = add_section(report, j, Section("motor", js["verdict"], governing, values,
+                                                MOTOR_COLUMNS))
+    text = mrep.to_text().splitlines()
+    blank = text.index("") if "" in text else len(text)
+    report = replace(report, supply=mrep.supply_summary(),
+                     supply_text=tuple(line for line in text[blank + 1:] if line))
+    report = add_not_modelled(report, ["motor inductance and field weakening (steady-state "
+                                       "envelope)", "driver switching losses beyond a fixed "
+                                       "inverter efficiency"])
+    return report, mrep
+
+
 def write_plots(report: CheckReport, drivetrain: Drivetrain, out_dir: Path) -> list[Path]:
     from sim.checks.cycloid import CycloidStage, write_profile_csv, write_profile_svg
     from sim.checks.plots import plot_utilisation
@@ -150,8 +220,14 @@ def execute(args: argparse.Namespace) -> int:
     if not report.joints:
         raise InputError(str(args.drivetrain), "joint",
                          "at least one joint with a reducer and a duty")
+    report, mrep = add_motor_checks(report, drivetrain, Path(args.duty), args.mission_h,
+                                    args.allow_failed)
     if args.plot:
         write_plots(report, drivetrain, Path(args.plot))
+        if mrep is not None:
+            from sim.checks.motor_plots import plot_all
+
+            plot_all(mrep, Path(args.plot))
     if args.json:
         print(to_json(report), end="")
     else:

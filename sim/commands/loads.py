@@ -38,7 +38,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
                         help="joint names or fnmatch patterns, comma-separated (e.g. '*_knee')")
     parser.add_argument("--exponent", action="append", metavar="P",
                         help="exponent of the equivalent torque, repeatable (default 3 and "
-                             "10/3); fractions like 10/3 allowed; JSON keys as written")
+                             "3.333); fractions like 10/3 allowed; JSON keys as written")
     parser.add_argument("--level", action="append", type=float, metavar="NM",
                         help="torque level (N m) for exceedance counts, repeatable "
                              "(default 50, 75 and 90 %% of each joint's peak)")
