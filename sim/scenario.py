@@ -39,6 +39,20 @@ SCENARIO_SPEC: dict[str, Any] = {
                                min=0.0),
         "restitution": Field(float, "coefficient of restitution", default=0.0, min=0.0, max=1.0),
     },
+    "drive": {
+        "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
+                               "added to the child link) or 'exact' (geared rotor links)",
+                               default="off", choices=("off", "approximate", "exact")),
+        "losses": Field(bool, "simulate the reducer friction and efficiency of the model's "
+                        "actuator tables", default=True),
+        "efficiency_band_rad_s": Field(float, "speed band around rest over which the forward "
+                                       "and back-driven efficiency are blended", default=0.01,
+                                       min=0.0, min_inclusive=False),
+    },
+    "start": {
+        "drop_height_m": Field(float, "feet start this far above the ground (a drop)",
+                               default=0.0, min=0.0, max=2.0),
+    },
     "payload": {
         "mass_kg": Field(float, "payload fixed to the body; 0 = none", default=0.0, min=0.0),
         "position_m": Field(list, "payload centre in the base frame", default=[0.0, 0.0, 0.075],
