@@ -6,6 +6,7 @@ import argparse
 import json
 import os
 from pathlib import Path
+from typing import Any
 
 from sim.config import parse_override
 from sim.model import load_model
@@ -38,9 +39,13 @@ def write_atomic(path: str | Path, text: str) -> Path:
 def execute(args: argparse.Namespace) -> int:
     over = dict(parse_override(t) for t in args.overrides)
     model = load_model(args.model, over)
-    info = {"model": model.name, "total_mass_kg": model.total_mass_kg,
-            "peak_torque_nm": {k: model.actuators[f"fl_{k}"].peak_torque_nm
-                               for k in ("abad", "hip", "knee")}}
+    info: dict[str, Any] = {"model": model.name, "total_mass_kg": model.total_mass_kg,
+                            "peak_torque_nm": {k: model.actuators[f"fl_{k}"].peak_torque_nm
+                                               for k in ("abad", "hip", "knee")}}
+    from sim.backdrive import report
+    from sim.gait import stance_angles
+
+    info["backdrive"] = report(model, stance_angles(model))  # sim/backdrive.py
     if args.urdf:
         write_atomic(args.urdf, build_urdf(model))
         info["urdf"] = str(args.urdf)
