@@ -163,6 +163,7 @@ class Drivetrain:
         self.records = options.rotor_inertia != "off" or self.has_friction or any(
             v > 0 for v in self.viscous)
         self._rows: list[list[float]] = []
+        self._peak = [0.0] * 12
 
     # per step -----------------------------------------------------------------------------
     def friction_bounds(self, tau: Sequence[float], qd: Sequence[float]) -> list[float]:
@@ -194,7 +195,13 @@ class Drivetrain:
 
     def sample(self, tau: Sequence[float], qd_before: Sequence[float]) -> None:
         """Keep the gearbox torques of the step just taken for the next :meth:`flush`."""
-        self._rows.append(self.gearbox_torque(tau, qd_before))
+        row = self.gearbox_torque(tau, qd_before)
+        self._rows.append(row)
+        self._peak = [max(p, abs(x)) for p, x in zip(self._peak, row, strict=True)]
+
+    def peaks(self) -> dict[str, float]:
+        """Largest |gearbox torque| per joint over the samples so far (N m)."""
+        return dict(zip(JOINT_NAMES, self._peak, strict=True))
 
     def flush(self, writer: Any) -> None:
         """Append the kept samples as ``joints/<joint>/gearbox_torque_nm`` to ``writer``."""

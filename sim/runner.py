@@ -433,6 +433,9 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
             s = rec.summary(j)
             joints[j] = {"peak_torque_nm": s.peak_torque_nm, "rms_torque_nm": s.rms_torque_nm,
                          "peak_speed_rad_s": s.peak_speed_rad_s, "saturated_s": s.saturated_s}
+    if drv.records and series:  # sim/drive.py: reducer output torque, over recorded samples
+        for j, peak in drv.peaks().items():
+            joints[j]["peak_gearbox_torque_nm"] = peak
     return RunResult(status, detail, path, joints, eng.total_mass_kg,
                      i_global / elapsed if elapsed > 0 else 0.0)
 

@@ -21,7 +21,7 @@ from sim.model import RobotModel, model_from_data
 
 POS = {"min": 0.0, "min_inclusive": False}
 
-SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie")
+SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump")
 
 SCENARIO_SPEC: dict[str, Any] = {
     "description": Field(str, "free text", default=""),

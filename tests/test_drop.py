@@ -89,3 +89,22 @@ def test_peak_knee_gearbox_torque_rises_with_ratio_at_equal_output_limit(tmp_pat
             f"robot.actuator.knee.gear_ratio={n}",
             f"robot.actuator.knee.current_limit_a={amps}"])[1]))
     assert peaks[0] < peaks[1] < peaks[2], peaks
+
+
+def test_jump_leaves_the_ground_and_lands_on_its_feet(tmp_path):
+    # ballistic flight: a hip-height gain dz needs a take-off speed sqrt(2 g dz) and gives an
+    # airtime of about 2 sqrt(2 dz / g) (legs change length in the air, so only roughly)
+    scn = load_scenario(SCENARIOS / "jump.toml", ["segment.0.duration_s=2.0"])
+    res = run(scn, tmp_path / "jump.h5")
+    assert res.status == "completed", res.detail
+    with open_record(res.record) as rec:
+        dt = float(rec.attrs["sample_period_s"])
+        contact = sum(rec.read(f"feet/{leg}/contact") for leg in LEGS)
+        z = rec.read("base/position_m")[:, 2]
+    airborne = np.flatnonzero(contact == 0)
+    assert airborne.size * dt > 0.1
+    rise = z.max() - z[airborne[0]]
+    assert airborne.size * dt == pytest.approx(2 * np.sqrt(2 * rise / G), rel=0.35)
+    assert contact[-1] == 4  # back on four feet
+    assert res.joints["fl_knee"]["peak_gearbox_torque_nm"] > res.joints["fl_knee"][
+        "peak_torque_nm"]  # the rotors add to the gearbox load at landing
