@@ -9,7 +9,7 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /joints/<joint>/torque_command_nm       [sample]            N m, asked for before clamping
     /joints/<joint>/saturated               [sample]            1 where the clamp was active
     /joints/<joint>/gearbox_torque_nm       [sample]            N m, reducer output on the joint
-                                                                (only when rotors or losses are simulated)
+                                            (present when rotors or losses are simulated)
     /feet/<leg>/force_n                     [sample, 3]         N, ground on foot, world frame
     /feet/<leg>/contact                     [sample]            1 when the foot touches ground
     /base/position_m                        [sample, 3]         m, base link frame origin
