@@ -111,9 +111,10 @@ def build_urdf(model: RobotModel, payload_kg: float = 0.0,
         thigh_mp = _with_armature(model.thigh_link(leg), 1, arm[f"{leg}_hip"])
         shank_mp = _with_armature(model.shank_link(), 1, arm[f"{leg}_knee"])
         if rotors == "exact":
-            parents = {"abad": ("base", hip), "hip": (f"{leg}_abad_link",
-                                                      (0.0, side * lg["abad_offset_m"], 0.0)),
-                       "knee": (f"{leg}_thigh", (0.0, 0.0, -l1))}
+            parents: dict[str, tuple[str, list[float]]] = {
+                "abad": ("base", [float(v) for v in hip]),
+                "hip": (f"{leg}_abad_link", [0.0, side * lg["abad_offset_m"], 0.0]),
+                "knee": (f"{leg}_thigh", [0.0, 0.0, -l1])}
             for kind, (parent, xyz) in parents.items():
                 rotor_rows.append(_rotor(f"{leg}_{kind}", parent, xyz, _AXES[kind][1],
                                          acts[kind].rotor_inertia_kg_m2, _AXES[kind][0]))
@@ -161,7 +162,7 @@ def _joint(name: str, parent: str, child: str, xyz: Sequence[float] | np.ndarray
             '<dynamics damping="0" friction="0"/></joint>')
 
 
-def _rotor(joint: str, parent: str, xyz: Sequence[float] | np.ndarray, axis: str,
+def _rotor(joint: str, parent: str, xyz: Sequence[float], axis: str,
            j_rotor: float, axis_index: int) -> str:
     """Rotor link and its continuous joint, coaxial with ``joint``, on ``parent``."""
     diag = [j_rotor / 2] * 3
