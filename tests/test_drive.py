@@ -280,3 +280,23 @@ def test_loss_torque_is_continuous_and_matches_both_limits():
     assert loss_torque_nm(2.0, -1.0, 0.9, 0.6, 0.01) == pytest.approx(2 / 0.6 - 2)
     assert loss_torque_nm(-2.0, 1.0, 0.9, 0.6, 0.01) == pytest.approx(2 / 0.6 - 2)
     assert loss_torque_nm(0.0, 1.0, 0.9, 0.6, 0.01) == 0.0
+
+
+@pytest.mark.parametrize("setting", ["drive.rotor_inertai=exact", "drive.rotor_inertia=full",
+                                     "start.drop_height=0.1"])
+def test_bad_drive_or_start_keys_are_rejected(setting):
+    from sim.errors import InputError
+    from sim.scenario import load_scenario
+
+    from .conftest import SCENARIOS
+
+    with pytest.raises(InputError) as err:
+        load_scenario(SCENARIOS / "drop.toml", [setting])
+    assert setting.split("=")[0].split(".")[0] in str(err.value)
+
+
+def test_misspelt_actuator_loss_key_is_rejected():
+    from sim.errors import InputError
+
+    with pytest.raises(InputError, match="efficency_back"):
+        load_model(MODELS / "fennec.toml", {"actuator.knee.efficency_back": 0.8})
