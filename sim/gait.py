@@ -117,3 +117,6 @@ def make_controller(seg: dict[str, Any], model: RobotModel,
 
 
 __all__ = ["Field", "RobotState", "SegmentController", "make_controller", "validate_segment"]
+
+# segment kinds defined in their own modules register themselves on import
+import sim.jump  # noqa: E402,F401  (vertical jump, sim/jump.py)

@@ -40,6 +40,16 @@ ACTUATOR_SPEC: dict[str, Any] = {
                               default=0.04, **POS),
     "housing_length_m": Field(float, "actuator housing length along the joint axis",
                               default=0.04, **POS),
+    # reducer losses in the dynamics (optional; the defaults keep a lossless reducer)
+    "friction_coulomb_nm": Field(float, "reducer Coulomb friction torque at the output",
+                                 default=0.0, min=0.0),
+    "friction_viscous_nm_s_rad": Field(float, "reducer viscous friction at the output",
+                                       default=0.0, min=0.0),
+    "efficiency_forward": Field(float, "reducer efficiency when the motor drives the load",
+                                default=1.0, min=0.05, max=1.0),
+    "efficiency_back": Field(float, "reducer efficiency when the load drives the motor "
+                             "(motor-side power / output power)", default=1.0, min=0.05,
+                             max=1.0),
 }
 
 
@@ -105,6 +115,21 @@ class Actuator:
     mass_kg: float
     housing_radius_m: float
     housing_length_m: float
+    friction_coulomb_nm: float = 0.0
+    friction_viscous_nm_s_rad: float = 0.0
+    efficiency_forward: float = 1.0
+    efficiency_back: float = 1.0
+
+    @property
+    def reflected_inertia_kg_m2(self) -> float:
+        """Rotor inertia seen at the joint output through the reducer: N^2 J_r."""
+        return self.gear_ratio ** 2 * self.rotor_inertia_kg_m2
+
+    @property
+    def lossless(self) -> bool:
+        """True when the reducer has neither friction nor efficiency losses."""
+        return (self.friction_coulomb_nm == 0.0 and self.friction_viscous_nm_s_rad == 0.0
+                and self.efficiency_forward == 1.0 and self.efficiency_back == 1.0)
 
     @property
     def peak_torque_nm(self) -> float:
@@ -222,7 +247,7 @@ def _actuators(data: dict[str, Any], file: str) -> dict[str, Actuator]:
         if kind not in table:
             raise InputError(file, f"actuator.{kind}", "an actuator table for every joint kind")
         kinds[kind] = validate(table[kind], ACTUATOR_SPEC, file, f"actuator.{kind}.")
-    partial = {k: Field(f.kind, f.doc, min=f.min, min_inclusive=f.min_inclusive)
+    partial = {k: Field(f.kind, f.doc, min=f.min, min_inclusive=f.min_inclusive, max=f.max)
                for k, f in ACTUATOR_SPEC.items()}
     out = {}
     for j in JOINT_NAMES:

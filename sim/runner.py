@@ -23,6 +23,7 @@ import numpy as np
 
 from sim import JOINT_NAMES, LEGS, __version__
 from sim.actuator import Envelope
+from sim.drive import DriveOptions, Drivetrain
 from sim.errors import SimulationFailure
 from sim.gait import RobotState, SegmentController, make_controller
 from sim.record import RecordWriter
@@ -88,7 +89,9 @@ class Engine:
         plane_shape = pb.createCollisionShape(pb.GEOM_PLANE, physicsClientId=c)
         self.plane = pb.createMultiBody(0, plane_shape, physicsClientId=c)
         pay = s["payload"]
-        self.urdf = build_urdf(scenario.model, pay["mass_kg"], pay["position_m"], pay["size_m"])
+        drive_opt = DriveOptions.from_table(s.get("drive"))
+        self.urdf = build_urdf(scenario.model, pay["mass_kg"], pay["position_m"], pay["size_m"],
+                               rotors=drive_opt.rotor_inertia)
         with tempfile.TemporaryDirectory(prefix="gaitload-") as tmp:
             fn = os.path.join(tmp, "robot.urdf")
             with open(fn, "w") as fh:
@@ -117,6 +120,8 @@ class Engine:
         # the default velocity motors would cancel every torque command below 1/dt (N m)
         pb.setJointMotorControlArray(r, JOINT_INDICES, pb.VELOCITY_CONTROL,
                                      forces=[0.0] * 12, physicsClientId=c)
+        # drivetrain dynamics (sim/drive.py): rotors, gear constraints, reducer friction
+        self.drive = Drivetrain(pb, c, r, scenario.model, JOINT_INDICES, drive_opt, self.dt)
         self.base_local_com = np.array(pb.getDynamicsInfo(r, -1, physicsClientId=c)[3])
         self.total_mass_kg = sum(pb.getDynamicsInfo(r, j, physicsClientId=c)[0]
                                  for j in range(-1, n_links))
@@ -235,6 +240,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     feet_b = statics.kin.foot_positions(q_init)
     body_h = scn.model.data["body"]["size_m"][2]
     base_z = max(body_h / 2, float(-(feet_b[:, 2].min())) + statics.kin.foot_radius_m) + 5e-4
+    base_z += d.get("start", {}).get("drop_height_m", 0.0)  # a drop starts in the air
     eng.place(q_init, base_z)
 
     te, se = _edges(scn)
@@ -248,6 +254,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         "world_frame": "ground frame: z normal to the ground, x up the slope",
     }
     r, c = eng.robot, eng.cid
+    drv = eng.drive
+    drv_step, drv_rec = drv.per_step, drv.records
     getJS = pb.getJointStates
     setJ = pb.setJointMotorControlArray
     step = pb.stepSimulation
@@ -298,6 +306,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                 o += 12
                 for k, leg in enumerate(LEGS):
                     w.append(f"feet/{leg}/contact", s_[:, o + k], dtype="i1")
+                drv.flush(w)  # joints/<joint>/gearbox_torque_nm (sim/drive.py)
             n_sb = 0
 
         i_global = 0
@@ -354,6 +363,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                         else:
                             tau[j] = x
                     setJ(r, J, TQ, forces=tau, physicsClientId=c)
+                    if drv_step:
+                        drv.before_step(tau, qd)  # efficiency losses follow the torque
                     step(physicsClientId=c)
                     if i_global >= start_step:
                         hb[n_hb] = tau + qd + sat
@@ -366,6 +377,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                             sb[n_sb] = [i_global * dt, *q, *qd, *tau, *tc, *sat, *pos, *orn,
                                         *v, *om, *fv, *contact]
                             n_sb += 1
+                            if drv_rec:
+                                drv.sample(tau, qd)
                         if n_hb == _BLOCK:
                             flush()
                     i_global += 1
@@ -419,6 +432,9 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
             sm = rec.summary(jn)
             joints[jn] = {"peak_torque_nm": sm.peak_torque_nm, "rms_torque_nm": sm.rms_torque_nm,
                           "peak_speed_rad_s": sm.peak_speed_rad_s, "saturated_s": sm.saturated_s}
+    if drv.records and series:  # sim/drive.py: reducer output torque, over recorded samples
+        for jname, peak in drv.peaks().items():
+            joints[jname]["peak_gearbox_torque_nm"] = peak
     return RunResult(status, detail, path, joints, eng.total_mass_kg,
                      i_global / elapsed if elapsed > 0 else 0.0)
 

@@ -21,7 +21,7 @@ from sim.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
 
-SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie")
+SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump")
 
 SCENARIO_SPEC: dict[str, Any] = {
     "description": Field(str, "free text", default=""),
@@ -38,6 +38,20 @@ SCENARIO_SPEC: dict[str, Any] = {
         "damping_n_s_m": Field(float, "contact damping per foot (with stiffness)", default=0.0,
                                min=0.0),
         "restitution": Field(float, "coefficient of restitution", default=0.0, min=0.0, max=1.0),
+    },
+    "drive": {
+        "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
+                               "added to the child link) or 'exact' (geared rotor links)",
+                               default="off", choices=("off", "approximate", "exact")),
+        "losses": Field(bool, "simulate the reducer friction and efficiency of the model's "
+                        "actuator tables", default=True),
+        "efficiency_band_rad_s": Field(float, "speed band around rest over which the forward "
+                                       "and back-driven efficiency are blended", default=0.01,
+                                       min=0.0, min_inclusive=False),
+    },
+    "start": {
+        "drop_height_m": Field(float, "feet start this far above the ground (a drop)",
+                               default=0.0, min=0.0, max=2.0),
     },
     "payload": {
         "mass_kg": Field(float, "payload fixed to the body; 0 = none", default=0.0, min=0.0),

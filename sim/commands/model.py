@@ -40,8 +40,12 @@ def execute(args: argparse.Namespace) -> int:
     over = dict(parse_override(t) for t in args.overrides)
     model = load_model(args.model, over)
     info: dict[str, Any] = {"model": model.name, "total_mass_kg": model.total_mass_kg,
-            "peak_torque_nm": {k: model.actuators[f"fl_{k}"].peak_torque_nm
-                               for k in ("abad", "hip", "knee")}}
+                            "peak_torque_nm": {k: model.actuators[f"fl_{k}"].peak_torque_nm
+                                               for k in ("abad", "hip", "knee")}}
+    from sim.backdrive import report
+    from sim.gait import stance_angles
+
+    info["backdrive"] = report(model, stance_angles(model))  # sim/backdrive.py
     if args.urdf:
         write_atomic(args.urdf, build_urdf(model))
         info["urdf"] = str(args.urdf)
