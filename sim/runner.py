@@ -300,6 +300,19 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                     w.append(f"feet/{leg}/contact", s_[:, o + k], dtype="i1")
             n_sb = 0
 
+        def measure(i_g: int, q: list[float] | None = None, qd: list[float] | None = None,
+                    contacts: bool = True) -> RobotState:
+            """The measured state the controllers see."""
+            if q is None or qd is None:
+                st = getJS(r, J, physicsClientId=c)
+                q = [s[0] for s in st]
+                qd = [s[1] for s in st]
+            origin, orn, Rm, v, om = eng.base_state()
+            contact = eng.foot_forces()[1] if contacts else [1.0] * 4
+            return RobotState(i_g * dt, np.reshape(q, (4, 3)), np.reshape(qd, (4, 3)), origin,
+                              Rm, np.array(v), np.array(om), eng.gravity_w,
+                              np.array(contact) > 0)
+
         i_global = 0
         t0 = clock()
         try:
@@ -307,6 +320,10 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                 seg_start = i_global
                 upd_every = max(round(d["control"]["update_period_s"] / dt),
                                 round(ctrl.min_update_period_s / dt), 1)
+                # segment start: gains of the segment, then the controller's start hook
+                KPs, KDs = ctrl.gains(KP, KD) if hasattr(ctrl, "gains") else (KP, KD)
+                if hasattr(ctrl, "start"):
+                    ctrl.start(measure(i_global))
                 qdes = [0.0] * 12
                 qddes = [0.0] * 12
                 ff = [0.0] * 12
@@ -315,19 +332,14 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                     q = [s[0] for s in st]
                     qd = [s[1] for s in st]
                     if i % upd_every == 0:
-                        origin, orn, Rm, v, om = eng.base_state()
-                        contact = eng.foot_forces()[1] if ctrl.needs_contacts else [1.0] * 4
-                        state = RobotState(i_global * dt, np.reshape(q, (4, 3)),
-                                           np.reshape(qd, (4, 3)), origin, Rm, np.array(v),
-                                           np.array(om), eng.gravity_w,
-                                           np.array(contact) > 0)
+                        state = measure(i_global, q, qd, ctrl.needs_contacts)
                         a_, b_, c_ = ctrl.update(i * dt, state)
                         qdes = a_.reshape(-1).tolist()
                         qddes = b_.reshape(-1).tolist()
                         ff = c_.reshape(-1).tolist()
                     tau = [0.0] * 12
                     sat = [0.0] * 12
-                    tc = [ff[j] + KP[j] * (qdes[j] - q[j]) + KD[j] * (qddes[j] - qd[j])
+                    tc = [ff[j] + KPs[j] * (qdes[j] - q[j]) + KDs[j] * (qddes[j] - qd[j])
                           for j in R12]
                     for j in R12:
                         x = tc[j]
