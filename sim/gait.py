@@ -62,6 +62,9 @@ def _gait_spec(period_s: float, duty: float, step_h: float, speed: float,
                                   "correction gain)", default=0.03, min=0.0, max=0.5),
         "speed_gain": Field(float, "stance sweep correction per unit velocity error",
                             default=0.5, min=0.0, max=5.0),
+        "speed_integral_gain_1_s": Field(float, "integral action on the velocity error "
+                                         "(bounded to 0.3 m/s)", default=1.0, min=0.0,
+                                         max=20.0),
         "attitude_gain": Field(float, "extra leg-length correction per unit tilt error",
                                default=1.0, min=0.0, max=5.0),
         "attitude_rate_gain_s": Field(float, "tilt-rate damping of the attitude feedback",
@@ -76,7 +79,7 @@ def _gait_spec(period_s: float, duty: float, step_h: float, speed: float,
     }
     if walk:
         spec["body_shift_gain"] = Field(float, "share of the shift of the body toward the "
-                                        "centroid of the loaded feet", default=1.0, min=0.0,
+                                        "centroid of the loaded feet", default=0.15, min=0.0,
                                         max=2.0)
     return spec
 

@@ -8,7 +8,8 @@ Every control update:
 2. The command (forward, lateral speed, yaw rate) ramps smoothly from the velocity found at
    the segment start to the set value over ``ramp_s``. Heading feedback adds
    ``yaw_gain_1_s (yaw* - yaw)`` to the yaw rate (the heading reference integrates the
-   commanded yaw rate); speed feedback adds ``speed_gain (v* - v)`` to the stance sweep.
+   commanded yaw rate); speed feedback adds ``speed_gain (v* - v)`` and a bounded integral
+   ``speed_integral_gain_1_s * integral (v* - v) dt`` to the stance sweep.
 3. Stance feet move in H at minus the effective body velocity (a foot on the ground stays put
    in the world), at the stance height corrected by height feedback ``height_gain (h* - h)``.
    Swing feet follow :func:`sim.gaits.footpath.swing_curve` from their lift-off point to the
@@ -59,7 +60,7 @@ class GaitController(SegmentController):
     min_update_period_s = 0.002
     lift: tuple[float, ...] = TROT_LIFT
     load_ramp = 0.15  # share of the stance over which a foot takes up / gives off its load
-    shift_ramp = 0.5  # the same for the body shift of a walk
+    shift_ramp = 0.2  # the same for the body shift of a walk
 
     def __init__(self, seg: dict[str, Any], model: RobotModel, statics: StanceStatics):
         super().__init__(seg, model, statics)
@@ -74,6 +75,9 @@ class GaitController(SegmentController):
         self.ramp_s = g["ramp_s"]
         self.k_place = g["placement_gain_s"]
         self.k_speed = g["speed_gain"]
+        self.k_speed_i = g["speed_integral_gain_1_s"]
+        self.i_err = [0.0, 0.0]
+        self.i_lim = 0.3  # m/s, bound of the integral correction
         self.k_att = g["attitude_gain"]
         self.k_att_rate = g["attitude_rate_gain_s"]
         self.k_yaw = g["yaw_gain_1_s"]
@@ -98,6 +102,8 @@ class GaitController(SegmentController):
         self.yaw_ref = 0.0
         self.t_prev = 0.0
         self.cmd = (0.0, 0.0, 0.0)
+        self.shift = (0.0, 0.0)
+        self.v_shift = (0.0, 0.0)
 
     def start(self, state: RobotState) -> None:
         R = state.base_rotation
@@ -112,6 +118,9 @@ class GaitController(SegmentController):
         self.w0 = float(state.base_angular_velocity_rad_s[2])
         self.yaw_ref = yaw
         self.t_prev = 0.0
+        self.i_err = [0.0, 0.0]
+        self.shift = (0.0, 0.0)
+        self.v_shift = (0.0, 0.0)
         self.swing = [False] * 4
 
     def planned_stance(self) -> np.ndarray:
@@ -138,9 +147,10 @@ class GaitController(SegmentController):
         vhx, vhy = cy * vw[0] + sy * vw[1], -sy * vw[0] + cy * vw[1]
         vf = self.v_f
         if dt > 0:
+            # the body's own shift (walk) is not a velocity error: filter v - d(shift)/dt
             a = min(1.0, dt / self.tau_v)
-            vf[0] += a * (vhx - vf[0])
-            vf[1] += a * (vhy - vf[1])
+            vf[0] += a * (vhx - self.v_shift[0] - vf[0])
+            vf[1] += a * (vhy - self.v_shift[1] - vf[1])
         r = smoothstep(t_seg / self.ramp_s) if self.ramp_s > 0 else 1.0
         vcx = self.v0[0] + (self.v_set[0] - self.v0[0]) * r
         vcy = self.v0[1] + (self.v_set[1] - self.v0[1]) * r
@@ -149,7 +159,13 @@ class GaitController(SegmentController):
         self.yaw_ref += wc * dt
         w_eff = wc + self.k_yaw * _wrap(self.yaw_ref - yaw)
         ex, ey = vf[0] - vcx, vf[1] - vcy
-        vex, vey = vcx - self.k_speed * ex, vcy - self.k_speed * ey
+        # speed feedback: proportional plus a bounded integral of the velocity error
+        ie = self.i_err
+        lim = self.i_lim
+        ie[0] = max(-lim, min(lim, ie[0] + self.k_speed_i * ex * dt))
+        ie[1] = max(-lim, min(lim, ie[1] + self.k_speed_i * ey * dt))
+        vex = vcx - self.k_speed * ex - ie[0]
+        vey = vcy - self.k_speed * ey - ie[1]
 
         T, beta = self.T, self.beta
         phi = phases(t_seg, T, beta, self.lift)
@@ -189,10 +205,13 @@ class GaitController(SegmentController):
             w = load_weights(phi, beta, self.shift_ramp)
             ws = sum(w)
             if ws > 1e-9:
-                sx = self.shift_gain * (sum(w[k] * p[k][0] for k in range(4)) / ws
+                sx = r * self.shift_gain * (sum(w[k] * p[k][0] for k in range(4)) / ws
                                         - sum(pk[0] for pk in p) / 4)
-                sy_ = self.shift_gain * (sum(w[k] * p[k][1] for k in range(4)) / ws
+                sy_ = r * self.shift_gain * (sum(w[k] * p[k][1] for k in range(4)) / ws
                                          - sum(pk[1] for pk in p) / 4)
+        if dt > 0:
+            self.v_shift = ((sx - self.shift[0]) / dt, (sy_ - self.shift[1]) / dt)
+        self.shift = (sx, sy_)
         # attitude feedback: H -> base through the feedback tilt a (rows: Ra^T p)
         a_r = -self.k_att * roll - self.k_att_rate * wbx
         a_p = self.pitch_cmd - self.k_att * (pitch - self.pitch_cmd) - self.k_att_rate * wby
@@ -209,7 +228,8 @@ class GaitController(SegmentController):
         forces = distribute(cont, self.weight_n * gn / 9.80665, up,
                             load_weights(phi, beta, self.load_ramp))
         q, qd, tau = self.solver.solve(p_b, v_b, g_b, forces)
-        return np.reshape(q, (4, 3)), np.reshape(qd, (4, 3)), np.reshape(tau, (4, 3))
+        return (np.array(q).reshape(4, 3), np.array(qd).reshape(4, 3),
+                np.array(tau).reshape(4, 3))
 
 
 class TrotController(GaitController):

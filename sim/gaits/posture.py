@@ -83,7 +83,8 @@ class _Move(SegmentController):
         forces = distribute(contacts.tolist(), share * self.statics.total_mass_kg * gn,
                             up.tolist(), [1.0] * 4)
         q, qd, tau = self.solver.solve(p.tolist(), v.tolist(), g_b.tolist(), forces)
-        return np.reshape(q, (4, 3)), np.reshape(qd, (4, 3)), np.reshape(tau, (4, 3))
+        return (np.array(q).reshape(4, 3), np.array(qd).reshape(4, 3),
+                np.array(tau).reshape(4, 3))
 
 
 class StandUpController(_Move):
