@@ -59,6 +59,7 @@ class GaitController(SegmentController):
     needs_contacts = True
     min_update_period_s = 0.002
     lift: tuple[float, ...] = TROT_LIFT
+    clear = 0.0015  # m, touchdown clearance (see update)
     load_ramp = 0.15  # share of the stance over which a foot takes up / gives off its load
     shift_ramp = 0.2  # the same for the body shift of a walk
 
@@ -182,7 +183,11 @@ class GaitController(SegmentController):
                 vy = -(vey + w_eff * pk[0])
                 pk[0] += vx * dt
                 pk[1] += vy * dt
-                pk[2] = self.z_stance[k] + dz
+                # the foot lands touchdown_clearance above the stance height and is pressed
+                # down over the load ramp, so a sagging body does not make it land early
+                ss = phi[k] / (beta * self.load_ramp)
+                pk[2] = self.z_stance[k] + dz + (self.clear * (1.0 - smoothstep(ss))
+                                                 if ss < 1.0 else 0.0)
                 vel[k][0], vel[k][1] = vx, vy
                 self.swing[k] = False
                 continue
@@ -193,7 +198,7 @@ class GaitController(SegmentController):
             hvx = vcx - wc * nom[1]
             hvy = vcy + wc * nom[0]
             ox, oy = touchdown_offset((hvx, hvy), (ex, ey), t_st, self.k_place)
-            p_td = (nom[0] + ox, nom[1] + oy, self.z_stance[k] + dz)
+            p_td = (nom[0] + ox, nom[1] + oy, self.z_stance[k] + dz + self.clear)
             v_end = (-hvx * t_sw, -hvy * t_sw)
             ps, dps = swing_curve((phi[k] - beta) / (1.0 - beta), self.p_lo[k], p_td, v_end,
                                   v_end, self.h_step)
