@@ -51,7 +51,7 @@ pb = _import_engine()
 
 JOINT_INDICES = [4 * k + i for k in range(4) for i in range(3)]
 FOOT_LINKS = [4 * k + 3 for k in range(4)]
-_BLOCK = 2000  # steps buffered before statistics and series are flushed
+_BLOCK = 8000  # steps buffered before statistics and series are flushed
 _CHECK_EVERY = 10  # steps between fall/divergence checks
 
 
@@ -65,9 +65,62 @@ class RunResult:
     joints: dict[str, dict[str, float]] = field(default_factory=dict)
     total_mass_kg: float = 0.0
     steps_per_s: float = 0.0
+    # locomotion figures over the recorded span (see RunSummary); per segment in ``segments``
+    summary: dict[str, float | None] = field(default_factory=dict)
+    segments: list[dict[str, Any]] = field(default_factory=list)
 
     def to_json(self) -> dict[str, Any]:
-        return {"status": self.status, "record": str(self.record), "joints": self.joints}
+        return {"status": self.status, "record": str(self.record), "joints": self.joints,
+                "summary": self.summary, "segments": self.segments}
+
+
+class RunSummary:
+    """Locomotion figures accumulated over the recorded span of one segment (or a run).
+
+    mean forward speed (along the body heading) achieved and commanded, body tilt RMS (angle
+    between body z and ground normal), slip distance of the stance feet (horizontal speed of
+    the material contact point, v_foot + omega x (-r n), integrated while in contact), positive
+    joint work (sum of max(tau qd, 0) dt over the joints) and the mechanical cost of transport
+    positive work / (m g d), d the net horizontal displacement of the base (the dimensionless
+    specific resistance of Gabrielli and von Karman, 1950, from memory, here with mechanical
+    joint work in place of the energy drawn).
+    """
+
+    def __init__(self) -> None:
+        self.time_s = 0.0
+        self.fwd = 0.0
+        self.cmd = 0.0
+        self.tilt2 = 0.0
+        self.slip_m = 0.0
+        self.work_j = 0.0
+        self.p0: list[float] | None = None
+        self.p1: list[float] | None = None
+
+    def add(self, other: RunSummary) -> None:
+        self.time_s += other.time_s
+        self.fwd += other.fwd
+        self.cmd += other.cmd
+        self.tilt2 += other.tilt2
+        self.slip_m += other.slip_m
+        self.work_j += other.work_j
+        if other.p0 is not None:
+            self.p0 = self.p0 or other.p0
+            self.p1 = other.p1
+
+    def figures(self, weight_n: float) -> dict[str, float | None]:
+        t = self.time_s
+        d = 0.0
+        if self.p0 is not None and self.p1 is not None:
+            d = math.hypot(self.p1[0] - self.p0[0], self.p1[1] - self.p0[1])
+        return {
+            "mean_forward_speed_m_s": self.fwd / t if t > 0 else None,
+            "commanded_forward_speed_m_s": self.cmd / t if t > 0 else None,
+            "tilt_rms_rad": math.sqrt(self.tilt2 / t) if t > 0 else None,
+            "slip_distance_m": self.slip_m,
+            "positive_work_j": self.work_j,
+            "distance_m": d,
+            "cost_of_transport": self.work_j / (weight_n * d) if d > 0.05 else None,
+        }
 
 
 class Engine:
@@ -265,7 +318,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     J = JOINT_INDICES
     R12 = range(12)
     hb = np.empty((_BLOCK, 36))
-    ns_cols = 1 + 12 * 5 + 13 + 12 + 4
+    ns_cols = 1 + 12 * 5 + 13 + 12 + 4 + 4  # ... contact, planned stance
     sb = np.empty((_BLOCK // dec + 2, ns_cols))
     n_hb = 0
     n_sb = 0
@@ -284,6 +337,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
             if n_hb:
                 blk = hb[:n_hb]
                 w.accumulate(blk[:, 0:12], blk[:, 12:24], blk[:, 24:36], dt)
+                seg_sum.work_j += float(np.maximum(blk[:, 0:12] * blk[:, 12:24], 0.0).sum()) * dt
                 n_hb = 0
             if n_sb and series:
                 s_ = sb[:n_sb]
@@ -307,7 +361,60 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                 for k, leg in enumerate(LEGS):
                     w.append(f"feet/{leg}/contact", s_[:, o + k], dtype="i1")
                 drv.flush(w)  # joints/<joint>/gearbox_torque_nm (sim/drive.py)
+                o += 4
+                for k, leg in enumerate(LEGS):  # planned phase: 1 = stance, 0 = swing
+                    w.append(f"feet/{leg}/phase_plan", s_[:, o + k], dtype="i1")
             n_sb = 0
+
+        def measure(i_g: int, q: list[float] | None = None, qd: list[float] | None = None,
+                    contacts: bool = True) -> RobotState:
+            """The measured state the controllers see."""
+            if q is None or qd is None:
+                st = getJS(r, J, physicsClientId=c)
+                q = [s[0] for s in st]
+                qd = [s[1] for s in st]
+            origin, _orn, Rm, v, om = eng.base_state()
+            contact = eng.foot_forces()[1] if contacts else [1.0] * 4
+            return RobotState(i_g * dt, np.reshape(q, (4, 3)), np.reshape(qd, (4, 3)), origin,
+                              Rm, np.array(v), np.array(om), eng.gravity_w,
+                              np.array(contact) > 0)
+
+        seg_sums: list[RunSummary] = []
+        seg_sum = RunSummary()
+        events: dict[str, list[list[float]]] = {"touchdown": [[], [], [], []],
+                                                "liftoff": [[], [], [], []]}
+        prev_contact = [True] * 4
+        r_foot = statics.kin.foot_radius_m
+
+        def observe(state: RobotState, ctrl: SegmentController, acc: RunSummary,
+                    dtu: float) -> None:
+            """Touchdown/lift-off events and the summary figures at a control update."""
+            nonlocal prev_contact
+            cont = state.contact.tolist()
+            t_now = state.t_s
+            for k in range(4):
+                if cont[k] != prev_contact[k]:
+                    events["touchdown" if cont[k] else "liftoff"][k].append(t_now)
+            prev_contact = cont
+            Rl = state.base_rotation
+            yaw = math.atan2(Rl[1, 0], Rl[0, 0])
+            v = state.base_velocity_m_s
+            acc.time_s += dtu
+            acc.fwd += (math.cos(yaw) * v[0] + math.sin(yaw) * v[1]) * dtu
+            acc.cmd += ctrl.commanded_velocity()[0] * dtu if hasattr(
+                ctrl, "commanded_velocity") else 0.0
+            acc.tilt2 += math.acos(max(-1.0, min(1.0, float(Rl[2, 2])))) ** 2 * dtu
+            pos = state.base_position_m
+            if acc.p0 is None:
+                acc.p0 = [float(pos[0]), float(pos[1])]
+            acc.p1 = [float(pos[0]), float(pos[1])]
+            if any(cont):
+                ls = pb.getLinkStates(r, FOOT_LINKS, computeLinkVelocity=1, physicsClientId=c)
+                for k in range(4):
+                    if cont[k]:
+                        lv, av = ls[k][6], ls[k][7]
+                        acc.slip_m += math.hypot(lv[0] - r_foot * av[1],
+                                                 lv[1] + r_foot * av[0]) * dtu
 
         i_global = 0
         t0 = clock()
@@ -316,6 +423,15 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                 seg_start = i_global
                 upd_every = max(round(d["control"]["update_period_s"] / dt),
                                 round(ctrl.min_update_period_s / dt), 1)
+                # segment start: gains of the segment, then the controller's start hook
+                KPs, KDs = ctrl.gains(KP, KD) if hasattr(ctrl, "gains") else (KP, KD)
+                if hasattr(ctrl, "start"):
+                    ctrl.start(measure(i_global))
+                seg_sum = RunSummary()
+                seg_sums.append(seg_sum)
+                plan = [1.0] * 4
+                upd_i = 0
+                dtu = upd_every * dt
                 qdes = [0.0] * 12
                 qddes = [0.0] * 12
                 ff = [0.0] * 12
@@ -324,20 +440,21 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                     q = [s[0] for s in st]
                     qd = [s[1] for s in st]
                     if i % upd_every == 0:
-                        origin, orn, Rm, v, om = eng.base_state()
-                        contact = eng.foot_forces()[1] if ctrl.needs_contacts else [1.0] * 4
-                        state = RobotState(i_global * dt, np.reshape(q, (4, 3)),
-                                           np.reshape(qd, (4, 3)), origin, Rm, np.array(v),
-                                           np.array(om), eng.gravity_w,
-                                           np.array(contact) > 0)
+                        state = measure(i_global, q, qd, True)
                         a_, b_, c_ = ctrl.update(i * dt, state)
                         qdes = a_.reshape(-1).tolist()
                         qddes = b_.reshape(-1).tolist()
                         ff = c_.reshape(-1).tolist()
+                        plan = ctrl.planned_stance().astype(float).tolist()
+                        upd_i = i
+                        if i_global >= start_step:
+                            observe(state, ctrl, seg_sum, dtu)
+                    # targets between updates follow the planned joint speed (first-order hold)
+                    lag = (i - upd_i) * dt
+                    tc = [ff[j] + KPs[j] * (qdes[j] + qddes[j] * lag - q[j])
+                          + KDs[j] * (qddes[j] - qd[j]) for j in R12]
                     tau = [0.0] * 12
                     sat = [0.0] * 12
-                    tc = [ff[j] + KP[j] * (qdes[j] - q[j]) + KD[j] * (qddes[j] - qd[j])
-                          for j in R12]
                     for j in R12:
                         x = tc[j]
                         wj = qd[j]
@@ -375,7 +492,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                             v, om = getVel(r, physicsClientId=c)
                             fv, contact = eng.foot_forces()
                             sb[n_sb] = [i_global * dt, *q, *qd, *tau, *tc, *sat, *pos, *orn,
-                                        *v, *om, *fv, *contact]
+                                        *v, *om, *fv, *contact, *plan]
                             n_sb += 1
                             if drv_rec:
                                 drv.sample(tau, qd)
@@ -406,6 +523,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                         if bar is not None and i_global % 1000 == 0:
                             bar.update(1000)
                 seg_table.append((seg["name"], seg["kind"], seg_start * dt, i_global * dt))
+                flush()  # so the positive work is booked to this segment
                 if status != "completed":
                     break
         except KeyboardInterrupt:
@@ -423,7 +541,22 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         w.put("segments/kind", np.array([s[1] for s in seg_table]))
         w.put("segments/start_s", np.array([s[2] for s in seg_table]), unit="s")
         w.put("segments/end_s", np.array([s[3] for s in seg_table]), unit="s")
-        path = w.finish(status, detail, simulated_s=i_global * dt)
+        weight_n = eng.total_mass_kg * 9.80665
+        seg_figs = [ss.figures(weight_n) for ss in seg_sums[:len(seg_table)]]
+        for key in ("mean_forward_speed_m_s", "commanded_forward_speed_m_s", "tilt_rms_rad",
+                    "slip_distance_m", "positive_work_j"):
+            w.put(f"segments/{key}", np.array([np.nan if f[key] is None else f[key]
+                                               for f in seg_figs], float))
+        for kind, per_leg in events.items():
+            for k, leg in enumerate(LEGS):
+                w.put(f"events/{kind}/{leg}", np.array(per_leg[k], float), unit="s")
+        total = RunSummary()
+        for ss in seg_sums:
+            total.add(ss)
+        run_figs = total.figures(weight_n)
+        path = w.finish(status, detail, simulated_s=i_global * dt,
+                        **{f"summary_{k}": np.nan if v is None else v
+                           for k, v in run_figs.items()})
     from sim.record import open_record
 
     joints: dict[str, dict[str, float]] = {}
@@ -435,8 +568,10 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     if drv.records and series:  # sim/drive.py: reducer output torque, over recorded samples
         for jname, peak in drv.peaks().items():
             joints[jname]["peak_gearbox_torque_nm"] = peak
+    segs_out = [{"name": n, "kind": k, "start_s": a, "end_s": b, **f}
+                for (n, k, a, b), f in zip(seg_table, seg_figs, strict=True)]
     return RunResult(status, detail, path, joints, eng.total_mass_kg,
-                     i_global / elapsed if elapsed > 0 else 0.0)
+                     i_global / elapsed if elapsed > 0 else 0.0, run_figs, segs_out)
 
 
 def raise_for_status(result: RunResult) -> RunResult:

@@ -1,0 +1,141 @@
+"""Measured robot state, the segment-controller base class and the nominal stance."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from sim.kinematics import LegKinematics
+from sim.model import RobotModel
+from sim.statics import StanceStatics
+
+
+@dataclass
+class RobotState:
+    """Measured state at a control update (world frame = ground frame, z normal to ground)."""
+
+    t_s: float
+    q: np.ndarray  # [4, 3]
+    qd: np.ndarray  # [4, 3]
+    base_position_m: np.ndarray  # [3] base frame origin
+    base_rotation: np.ndarray  # [3, 3] world from base
+    base_velocity_m_s: np.ndarray  # [3]
+    base_angular_velocity_rad_s: np.ndarray  # [3]
+    gravity_w: np.ndarray  # [3]
+    contact: np.ndarray  # [4] bool
+
+
+def nominal_feet_b(model: RobotModel, hip_height_m: float | None = None) -> np.ndarray:
+    """Foot-centre positions ``[4, 3]`` in the base frame for the nominal stance (level body).
+
+    ``hip_height_m`` replaces the model's stance height (hip axes above flat ground).
+    """
+    kin = LegKinematics.from_model(model)
+    st = model.data["stance"]
+    h = st["hip_height_m"] if hip_height_m is None else hip_height_m
+    feet = kin.hip_m.copy()
+    feet[:, 0] += st["foot_x_m"]
+    feet[:, 1] += kin.side * (kin.offset_m + st["foot_y_m"])
+    feet[:, 2] += -(h - kin.foot_radius_m)
+    return feet
+
+
+def stance_angles(model: RobotModel) -> np.ndarray:
+    """Joint angles ``[4, 3]`` of the nominal stance."""
+    return LegKinematics.from_model(model).inverse(nominal_feet_b(model))
+
+
+def roll_pitch_yaw(R: np.ndarray) -> tuple[float, float, float]:
+    """Z-Y-X Euler angles (yaw, then pitch, then roll) of the rotation ``R[3, 3]`` (rad)."""
+    pitch = math.asin(max(-1.0, min(1.0, -float(R[2, 0]))))
+    roll = math.atan2(float(R[2, 1]), float(R[2, 2]))
+    yaw = math.atan2(float(R[1, 0]), float(R[0, 0]))
+    return roll, pitch, yaw
+
+
+def rot_rp(roll: float, pitch: float) -> np.ndarray:
+    """``Ry(pitch) Rx(roll)``: the tilt part of a Z-Y-X rotation, ``[3, 3]``."""
+    cr, sr, cp, sp = math.cos(roll), math.sin(roll), math.cos(pitch), math.sin(pitch)
+    return np.array([[cp, sp * sr, sp * cr], [0.0, cr, -sr], [-sp, cp * sr, cp * cr]])
+
+
+def smoothstep(s: float) -> float:
+    """``3 s^2 - 2 s^3`` clipped to [0, 1]: zero slope at both ends."""
+    s = min(1.0, max(0.0, s))
+    return s * s * (3.0 - 2.0 * s)
+
+
+class SegmentController:
+    """Base class. Subclasses set ``needs_standing`` and implement :meth:`update`.
+
+    The runner calls :meth:`start` once with the measured state when the segment begins (so
+    chained segments continue from where the last one left the robot), then :meth:`update`
+    every control period. :meth:`gains` gives the joint gains of the segment.
+    """
+
+    needs_standing = True
+    needs_contacts = False  # True: the runner measures foot contacts at every update
+    min_update_period_s = 0.0  # a controller with slow targets may ask for fewer updates
+
+    def __init__(self, seg: dict[str, Any], model: RobotModel, statics: StanceStatics):
+        self.seg = seg
+        self.model = model
+        self.statics = statics
+        self.kin = statics.kin
+
+    def start(self, state: RobotState) -> None:
+        """Called once at the start of the segment with the measured state."""
+
+    def update(self, t_seg: float, state: RobotState) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Return ``(q_des[4,3], qd_des[4,3], tau_ff[4,3])``."""
+        raise NotImplementedError
+
+    def planned_stance(self) -> np.ndarray:
+        """Feet the plan expects on the ground now ``[4]`` (bool)."""
+        return np.ones(4, bool)
+
+    def commanded_velocity(self) -> tuple[float, float, float]:
+        """Commanded forward speed (m/s), lateral speed (m/s) and yaw rate (rad/s) now."""
+        return 0.0, 0.0, 0.0
+
+    def gains(self, kp: list[float], kd: list[float]) -> tuple[list[float], list[float]]:
+        """Per-joint gains ``(kp[12], kd[12])`` for this segment, in joint-name order.
+
+        ``kp``/``kd`` are the scenario's ``[control]`` gains; a segment's ``kp_nm_rad`` /
+        ``kd_nm_s_rad`` tables replace them per joint kind where they are above zero.
+        """
+        from sim import JOINT_NAMES
+
+        out_p, out_d = list(kp), list(kd)
+        tp = self.seg.get("kp_nm_rad", {})
+        td = self.seg.get("kd_nm_s_rad", {})
+        for j, name in enumerate(JOINT_NAMES):
+            kind = name.split("_")[1]
+            if tp.get(kind, 0.0) > 0:
+                out_p[j] = float(tp[kind])
+            if td.get(kind, 0.0) > 0:
+                out_d[j] = float(td[kind])
+        return out_p, out_d
+
+
+class StandController(SegmentController):
+    """Hold the nominal stance: fixed joint targets plus static feed-forward over four feet."""
+
+    min_update_period_s = 0.02
+
+    def __init__(self, seg: dict[str, Any], model: RobotModel, statics: StanceStatics):
+        super().__init__(seg, model, statics)
+        self.q_des = stance_angles(model)
+        self._tau = np.zeros((4, 3))
+        self._t_ff = -np.inf
+
+    def update(self, t_seg: float, state: RobotState) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        # the stance changes slowly: refresh the static feed-forward at 10 Hz
+        if t_seg - self._t_ff >= 0.1 - 1e-12:
+            g_b = state.base_rotation.T @ state.gravity_w
+            self._tau, _ = self.statics.torques(state.q, g_b)
+            self._t_ff = t_seg
+        return self.q_des, np.zeros((4, 3)), self._tau
