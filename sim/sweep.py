@@ -1058,7 +1058,7 @@ def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shar
                          "'gaitload[cluster]')") from None
     own = not isinstance(cluster, Client)
     try:
-        client = Client(cluster, timeout=30) if own else cluster
+        client = Client(cluster, timeout=10) if own else cluster
     except OSError as exc:
         raise GaitloadError(f"cannot reach the Dask scheduler at {cluster}: {exc}") from None
     try:
@@ -1118,7 +1118,6 @@ def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
     specs = list(todo.values())
     try:
         if specs:
-            (out_dir / "cases").mkdir(parents=True, exist_ok=True)
             if cluster is not None:
                 _execute_dask(specs, out_dir, cluster, shared_output, done)
             else:
