@@ -58,6 +58,7 @@ import math
 import os
 import sys
 import tempfile
+import time
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from fnmatch import fnmatchcase
@@ -820,6 +821,8 @@ def run_case(spec: Mapping[str, Any], out_dir: str | None = None) -> dict[str, A
                 out.update(status="error", reason=str(exc))
         if out_dir is None and rec.is_file():
             out["record_bytes"] = rec.read_bytes()
+    out["pid"] = os.getpid()
+    out["process_cpu_s"] = time.process_time()  # cumulative CPU of this worker process
     return out
 
 
@@ -892,6 +895,8 @@ class SweepResult:
 
     ``ranked`` lists case indices of ranked (completed, feasible, finite) cases, best first.
     ``n_run`` / ``n_reused``: cases run now and cases taken from a previous run.
+    ``worker_cpu_s``: per worker process (by pid) its CPU seconds since it started, as last
+    reported (start-up, cases run now and any executor threads); in no output file.
     """
 
     sweep: Sweep
@@ -900,6 +905,7 @@ class SweepResult:
     ranked: tuple[int, ...]
     n_run: int
     n_reused: int
+    worker_cpu_s: dict[int, float] = field(default_factory=dict)
 
     def record_path(self, index: int) -> Path:
         return self.out_dir / "cases" / self.cases[index].key / "record.h5"
@@ -1110,7 +1116,11 @@ def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
 
         bar = tqdm(total=len(todo), unit="case", desc="sweep", file=sys.stderr)
 
+    cpu: dict[int, float] = {}
+
     def done(res: dict[str, Any]) -> None:
+        if "pid" in res:
+            cpu[res["pid"]] = max(cpu.get(res["pid"], 0.0), float(res["process_cpu_s"]))
         stored[res["key"]] = _store(out_dir, by_key[res["key"]], res)
         if bar is not None:
             bar.update(1)
@@ -1138,7 +1148,7 @@ def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
         results.append(CaseResult(c.index, c.key, status, reason, dict(c.params), metrics))
     ranked = rank_cases(results, sweep.rank_metric, sweep.rank_goal)
     return SweepResult(sweep, out_dir, tuple(results), ranked, len(specs),
-                       len(cases) - len(specs))
+                       len(cases) - len(specs), cpu)
 
 
 def _store(out_dir: Path, case: Case, res: Mapping[str, Any]) -> dict[str, Any]:

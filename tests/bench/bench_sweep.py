@@ -41,14 +41,30 @@ def sweep_file(duration_s: float) -> Path:
     return path
 
 
-def timed(label: str, fn) -> tuple[float, object]:
+def _cpu() -> tuple[int, float]:
+    return os.getpid(), time.process_time()
+
+
+def timed(label: str, fn, client=None) -> tuple[float, float, object]:
+    """Wall time and an estimate for idle cores: this process's CPU + the busiest worker's.
+
+    Worker CPU is counted from the start of the timed run: fresh pool workers start at zero;
+    for the long-lived Dask workers their CPU before the run is subtracted.
+    """
+    base = dict(client.run(_cpu).values()) if client is not None else {}
     load0 = os.getloadavg()[0]
-    t0 = time.perf_counter()
+    t0, c0 = time.perf_counter(), time.process_time()
     res = fn()
-    dt = time.perf_counter() - t0
-    print(f"  {label:<28} {dt:7.2f} s   (1-min load before {load0:.2f}, after "
-          f"{os.getloadavg()[0]:.2f})")
-    return dt, res
+    dt, parent = time.perf_counter() - t0, time.process_time() - c0
+    for pid in res.worker_cpu_s:
+        res.worker_cpu_s[pid] -= base.get(pid, 0.0)
+    busiest = max(res.worker_cpu_s.values())
+    est = parent + busiest
+    print(f"  {label:<28} wall {dt:6.2f} s | idle-core estimate {est:6.2f} s (client CPU "
+          f"{parent:.2f} s + busiest worker CPU {busiest:.2f} s of "
+          f"{sum(res.worker_cpu_s.values()):.2f} s in {len(res.worker_cpu_s)}) | 1-min load "
+          f"{load0:.2f} -> {os.getloadavg()[0]:.2f}")
+    return dt, est, res
 
 
 def main() -> int:
@@ -58,7 +74,7 @@ def main() -> int:
     ap.add_argument("--duration-s", type=float, default=5.0, help="simulated seconds per case")
     a = ap.parse_args()
 
-    from distributed import LocalCluster
+    from distributed import Client, LocalCluster
 
     from sim.sweep import load_sweep, run_sweep, write_outputs
 
@@ -73,25 +89,30 @@ def main() -> int:
 
     best: dict[str, float] = {}
     times: dict[str, list[float]] = {}
+    ests: dict[str, list[float]] = {}
     tables: dict[str, str] = {}
     t0 = time.perf_counter()
     cluster = LocalCluster(processes=True, n_workers=2, threads_per_worker=1,
                            dashboard_address=None)
     print(f"  (Dask LocalCluster started in {time.perf_counter() - t0:.2f} s, not timed below)")
+    client = Client(cluster)
     try:
         for rep in range(a.repeat):
             print(f"run {rep + 1}/{a.repeat}")
             for label, kw in (("local pool, 1 worker", {"workers": 1}),
                               ("local pool, 2 workers", {"workers": 2}),
                               ("Dask LocalCluster, 2 workers",
-                               {"cluster": cluster.scheduler_address})):
+                               {"cluster": client})):
                 d = fresh(label.replace(" ", "_").replace(",", ""))
-                dt, res = timed(label, lambda d=d, kw=kw: run_sweep(sweep, d, **kw))
+                dt, est, res = timed(label, lambda d=d, kw=kw: run_sweep(sweep, d, **kw),
+                                     client if "cluster" in kw else None)
+                ests.setdefault(label, []).append(est)
                 write_outputs(res)  # type: ignore[arg-type]
                 tables[label] = (d / "results.csv").read_text()
                 best[label] = min(best.get(label, float("inf")), dt)
                 times.setdefault(label, []).append(dt)
     finally:
+        client.close()
         cluster.close()
     same = len(set(tables.values())) == 1
     for label, ts in times.items():
@@ -102,6 +123,12 @@ def main() -> int:
     print(f"speed-up 2 workers / 1 worker: {t1 / t2:.2f}x (goal >= 1.8x)")
     print(f"Dask overhead over the local pool (2 workers): {100 * (td / t2 - 1):+.1f} % "
           "(goal <= 10 %)")
+    e1, e2, ed = (min(ests[k]) for k in ("local pool, 1 worker", "local pool, 2 workers",
+                                          "Dask LocalCluster, 2 workers"))
+    print("CPU-time estimates for idle cores (client CPU + busiest worker's CPU; robust to "
+          "other load, blind to waiting):")
+    print(f"  speed-up 2 workers / 1 worker: {e1 / e2:.2f}x; Dask overhead over the local "
+          f"pool: {100 * (ed / e2 - 1):+.1f} %")
     print(f"tables identical across the three: {same}")
     return 0 if same else 1
 
