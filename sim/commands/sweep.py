@@ -1,0 +1,77 @@
+"""``gaitload sweep SWEEP.toml [-o DIR] [--workers N] [--cluster ADDRESS] [--json]``."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import time
+from pathlib import Path
+
+HELP = "run a design sweep in parallel and rank the cases"
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument("sweep", help="sweep file (scenarios/sweep_*.toml)")
+    p.add_argument("-o", "--output", metavar="DIR",
+                   help="output folder (default: <sweep name>_sweep here); a rerun into the "
+                        "same folder runs only the missing or changed cases")
+    where = p.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=int, metavar="N",
+                       help="local worker processes (default: the CPUs available)")
+    where.add_argument("--cluster", metavar="ADDRESS",
+                       help="run the cases on an existing dask.distributed scheduler, "
+                            "e.g. tcp://10.0.0.5:8786")
+    p.add_argument("--shared-output", action="store_true",
+                   help="with --cluster: the workers see DIR at the same path and write the "
+                        "records there (default: records are sent back to this machine)")
+    p.add_argument("--no-plots", action="store_true", help="write no plots")
+    p.add_argument("--json", action="store_true", help="print only the JSON summary on stdout")
+
+
+def execute(args: argparse.Namespace) -> int:
+    from sim.errors import InputError
+    from sim.sweep import CAUTION, format_table, load_sweep, run_sweep, write_outputs
+
+    if args.workers is not None and args.workers < 1:
+        raise InputError("--workers", None, "a worker count of at least 1", args.workers)
+    sweep = load_sweep(args.sweep)  # every input error is raised here, before any output
+    out = Path(args.output) if args.output else Path(Path(args.sweep).stem + "_sweep")
+    t0 = time.perf_counter()
+    result = run_sweep(sweep, out, workers=args.workers, cluster=args.cluster,
+                       shared_output=args.shared_output, progress=True)
+    elapsed = time.perf_counter() - t0
+    csv_path, json_path = write_outputs(result)
+    plots: list[Path] = []
+    if not args.no_plots:
+        from sim.sweep_plots import write_plots
+
+        plots = write_plots(result, out / "plots")
+    summary = result.summary()
+    print(f"gaitload sweep: {len(result.cases)} cases, {result.n_run} run, {result.n_reused} "
+          f"reused, {elapsed:.1f} s", file=sys.stderr)
+    if args.json:
+        doc = dict(summary, results_csv=str(csv_path), summary_json=str(json_path),
+                   plots=[str(p) for p in plots], cases_run=result.n_run,
+                   cases_reused=result.n_reused)
+        from sim.sweep import _jsonable
+
+        print(json.dumps(_jsonable(doc), indent=2))
+    else:
+        print(format_table(result))
+        w, r = summary["winner"], summary["runner_up"]
+        if w is None:
+            print(f"no case completed; see {csv_path} for each status and reason")
+        else:
+            text = f"winner: case {w['case']} {w['params']}  {sweep.rank_metric} = {w['value']:.6g}"
+            if r is not None:
+                m = summary["margin"]
+                rel = "" if m["rel"] is None else f" ({100 * m['rel']:.2f} %)"
+                text += f"; runner-up case {r['case']} by {m['abs']:.4g}{rel}"
+            print(text)
+        failed = [c for c in result.cases if c.status != "completed"]
+        for c in failed:
+            print(f"case {c.index} {c.status}: {c.reason}")
+        print(f"table: {csv_path}  summary: {json_path}")
+        print(CAUTION)
+    return 0 if result.ranked else 3
