@@ -565,6 +565,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
             sm = rec.summary(jn)
             joints[jn] = {"peak_torque_nm": sm.peak_torque_nm, "rms_torque_nm": sm.rms_torque_nm,
                           "peak_speed_rad_s": sm.peak_speed_rad_s, "saturated_s": sm.saturated_s}
+    for jname in JOINT_NAMES:  # a rigid, lossless reducer passes the joint torque unchanged
+        joints[jname]["peak_gearbox_torque_nm"] = joints[jname]["peak_torque_nm"]
     if drv.records and series:  # sim/drive.py: reducer output torque, over recorded samples
         for jname, peak in drv.peaks().items():
             joints[jname]["peak_gearbox_torque_nm"] = peak

@@ -183,7 +183,11 @@ def _run_provider(ctx: CaseContext) -> Mapping[str, Any]:
 RUN_SCHEMA: dict[str, Any] = {
     "total_mass_kg": NUM,
     "joints": {JOINT: {"peak_torque_nm": NUM, "rms_torque_nm": NUM, "peak_speed_rad_s": NUM,
-                       "saturated_s": NUM}},
+                       "saturated_s": NUM, "peak_gearbox_torque_nm": NUM}},
+    # locomotion figures of the whole run (mean forward speed, tilt RMS, slip, cost of
+    # transport, ...; see sim.runner.RunSummary) and per segment
+    "summary": {ANY: NUM},
+    "segments": ANY,
 }
 
 
@@ -202,6 +206,26 @@ def _model_provider(ctx: CaseContext) -> Mapping[str, Any]:
     return {"total_mass_kg": m.total_mass_kg, "actuators": acts}
 
 
+def _backdrive_provider(ctx: CaseContext) -> Mapping[str, Any]:
+    import tomllib
+
+    from sim.backdrive import report
+    from sim.gait import stance_angles
+    from sim.model import model_from_data
+
+    m = model_from_data(tomllib.loads(ctx.model_toml), "resolved model")
+    return report(m, stance_angles(m))
+
+
+BACKDRIVE_SCHEMA: dict[str, Any] = {
+    "joints": {JOINT: {"reflected_inertia_kg_m2": NUM, "breakaway_torque_nm": NUM,
+                       "backdrive_torque_nm": NUM, ANY: ANY}},
+    "impact_mitigation_factor": {ANY: NUM},
+    "impact_mitigation_factor_without_rotors": {ANY: NUM},
+    ANY: ANY,
+}
+
+
 MODEL_SCHEMA: dict[str, Any] = {
     "total_mass_kg": NUM,
     "actuators": {JOINT: {"gear_ratio": NUM, "peak_torque_nm": NUM, "no_load_speed_rad_s": NUM,
@@ -211,7 +235,8 @@ MODEL_SCHEMA: dict[str, Any] = {
 
 def register_cli_provider(name: str, argv: Callable[[CaseContext], list[str]],
                           schema: Mapping[str, Any], command: str, doc: str = "",
-                          needs_drivetrain: bool = False) -> MetricProvider:
+                          needs_drivetrain: bool = False,
+                          ok_codes: tuple[int, ...] = (0,)) -> MetricProvider:
     """Register a provider that runs ``gaitload <command> ... --json`` in-process.
 
     ``argv(ctx)`` builds the argument list for :func:`sim.cli.main` (it must include
@@ -243,7 +268,7 @@ def register_cli_provider(name: str, argv: Callable[[CaseContext], list[str]],
         out, err = io.StringIO(), io.StringIO()
         with redirect_stdout(out), redirect_stderr(err):
             code = main(args)
-        if code != 0:
+        if code not in ok_codes:
             raise GaitloadError(f"metric provider '{name}.': 'gaitload {' '.join(args)}' exited "
                                 f"with {code}: {err.getvalue().strip()[-400:]}")
         try:
@@ -282,7 +307,9 @@ register_cli_provider("loads", lambda ctx: ["loads", str(ctx.record_path), "--js
 register_cli_provider("check", lambda ctx: ["check", str(ctx.record_path), "--drivetrain",
                                             str(ctx.drivetrain), "--json"],
                       CHECK_SCHEMA, "check", "reducer, motor and supply checks (gaitload check)",
-                      needs_drivetrain=True)
+                      needs_drivetrain=True, ok_codes=(0, 1))  # 1: a part failed, still figures
+register_provider(MetricProvider("backdrive", _backdrive_provider, BACKDRIVE_SCHEMA,
+                                 "back-drivability of the resolved model (sim.backdrive)"))
 
 
 @dataclass(frozen=True)

@@ -19,7 +19,11 @@ HELP = "run the demo set on the invented demo robot"
 ROOT = Path(__file__).resolve().parents[2]
 # (scenario file under scenarios/, mix entry kind, hours per day or occurrences per day)
 DEMO_SET: list[tuple[str, str, float]] = [
-    ("stand.toml", "duty", 6.0),
+    ("stand.toml", "duty", 6.0),       # standing watch, hours per day
+    ("walk.toml", "duty", 1.0),        # careful walking
+    ("trot.toml", "duty", 1.5),        # patrol at 0.6 m/s
+    ("stand_up.toml", "event", 20.0),  # stand-ups per day
+    ("sit_down.toml", "event", 20.0),  # sit-downs per day
 ]
 
 
