@@ -3,16 +3,20 @@
 Module map and the one dependency rule (data flows top to bottom; a module may import
 only from modules above it or beside it in the same group):
 
-    errors, config, units          - error hierarchy, strict TOML reading
+    errors, config                 - error hierarchy, strict TOML reading
     inertia, model, kinematics,    - robot description (pure numpy)
-    actuator, statics, urdf
-    scenario, gait, control        - what to do and how (pure numpy)
+    actuator, statics, urdf,
+    backdrive
+    scenario, gait, gaits.*, jump  - what to do and how (pure numpy)
+    drive                          - engine-side rotor and friction set-up (called by runner)
     runner                         - THE ONLY MODULE THAT IMPORTS pybullet
     record                         - THE ONLY MODULE THAT TOUCHES h5py
     spectra, rainflow, mix         - post-processing of records (never imports the engine)
-    checks.*                       - reducer, motor, thermal and supply checks on spectra
-    sweep                          - many cases in parallel
-    plots                          - matplotlib figures (imported lazily)
+    drivetrain, materials,         - reducer, motor, thermal and supply checks on spectra
+    checks.*
+    sweep                          - many cases in parallel (process pool or Dask)
+    plots, sweep_plots,            - matplotlib figures (imported lazily)
+    checks.plots, checks.motor_plots
     cli, commands.*                - thin command-line layer over the library
 
 Array convention everywhere: time series are ``[sample]`` or ``[sample, component]``;
