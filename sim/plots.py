@@ -16,7 +16,8 @@ from sim.rainflow import Cycles
 from sim.spectra import JointSpectrum, load_duration
 
 
-def _pyplot() -> Any:
+def pyplot() -> Any:
+    """matplotlib's pyplot on the non-interactive Agg backend (imported on first use)."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -25,17 +26,26 @@ def _pyplot() -> Any:
     return plt
 
 
-def _save(fig: Any, path: str | Path) -> Path:
+def save_png(fig: Any, path: str | Path, dpi: int = 100, caption: str | None = None) -> Path:
+    """Write ``fig`` as PNG atomically (temporary file, rename), without a software stamp so
+    the same figure gives the same bytes; close the figure."""
     p = Path(path)
     p.parent.mkdir(parents=True, exist_ok=True)
     tmp = p.with_name(f".{p.name}.{os.getpid()}.tmp")
+    if caption:
+        fig.text(0.01, 0.005, caption, fontsize=6, color="0.4")
     try:
-        fig.savefig(tmp, format="png", dpi=100, metadata={"Software": None})
+        fig.savefig(tmp, format="png", dpi=dpi, metadata={"Software": None})
         os.replace(tmp, p)
     finally:
         tmp.unlink(missing_ok=True)
-        _pyplot().close(fig)
+        if hasattr(fig, "number"):  # a pyplot figure: release it
+            pyplot().close(fig)
     return p
+
+
+_pyplot = pyplot
+_save = save_png
 
 
 def plot_time_at_level(spec: JointSpectrum, path: str | Path, title: str = "") -> Path:

@@ -10,8 +10,6 @@
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 from typing import Any
 
@@ -32,16 +30,9 @@ def _figure(w_in: float, h_in: float) -> Any:
 
 
 def _save(fig: Any, path: Path) -> Path:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    os.close(fd)
-    try:
-        fig.savefig(tmp, format="png", metadata={"Software": None})
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-    return path
+    from sim.plots import save_png
+
+    return save_png(fig, path)
 
 
 def varied_numeric_keys(result: SweepResult) -> list[str]:

@@ -6,7 +6,6 @@ returns its path. Figures carry the caution that results are estimates.
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 from typing import Any
 
@@ -19,26 +18,13 @@ from sim.checks.motor import (
     current_limit_torque_nm,
     envelope_nm,
 )
-
-
-def _pyplot() -> Any:
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    return plt
+from sim.plots import pyplot as _pyplot
+from sim.plots import save_png
 
 
 def _save(fig: Any, path: str | Path) -> Path:
-    p = Path(path)
-    p.parent.mkdir(parents=True, exist_ok=True)
-    tmp = p.with_name(f".{p.name}.{os.getpid()}.tmp.png")
-    fig.text(0.01, 0.005, "Estimates; manufacturer ratings take precedence.", fontsize=6,
-             color="0.4")
-    fig.savefig(tmp, dpi=110, metadata={"Software": None})
-    os.replace(tmp, p)
-    return p
+    return save_png(fig, path, dpi=110,
+                    caption="Estimates; manufacturer ratings take precedence.")
 
 
 def _record(report: MotorReport, index: int) -> RecordResult:

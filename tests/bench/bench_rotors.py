@@ -2,7 +2,7 @@
 
 Same model (demo robot standing), same process, same run; plain script, run on demand:
 
-    PYTHONPATH=. python tests/bench/bench_rotors.py [seconds]
+    python tests/bench/bench_rotors.py [seconds]
 
 Prints for each mode the bare loop rate (explicit PD in Python + stepSimulation) and the full
 runner rate (recording every step), each as a ratio to the rotor-free rate measured here.
@@ -17,10 +17,12 @@ import tempfile
 import time
 from pathlib import Path
 
-from sim.runner import JOINT_INDICES, Engine, pb, run
-from sim.scenario import load_scenario
-
 ROOT = Path(__file__).resolve().parents[2]
+sys.path.insert(0, str(ROOT))
+
+from sim.runner import JOINT_INDICES, Engine, pb, run  # noqa: E402
+from sim.scenario import load_scenario  # noqa: E402
+
 STAND = ROOT / "scenarios" / "stand.toml"
 
 
