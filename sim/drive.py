@@ -195,7 +195,10 @@ class Drivetrain:
 
     def sample(self, tau: Sequence[float], qd_before: Sequence[float]) -> None:
         """Keep the gearbox torques of the step just taken for the next :meth:`flush`."""
-        row = self.gearbox_torque(tau, qd_before)
+        self.keep(self.gearbox_torque(tau, qd_before))
+
+    def keep(self, row: list[float]) -> None:
+        """Keep already computed gearbox torques ``row`` (12) for the next :meth:`flush`."""
         self._rows.append(row)
         self._peak = [max(p, abs(x)) for p, x in zip(self._peak, row, strict=True)]
 

@@ -24,6 +24,10 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /histograms/<joint>/speed_edges_rad_s   [speed_bin + 1]
     /summary/<joint>                        attributes: exact per-step statistics
 
+Histograms and summary describe the load at the reducer output: ``torque_nm`` for a rigid,
+lossless reducer, the reducer output torque (``gearbox_torque_nm``) when motor rotors or reducer
+losses are simulated (root attribute ``load_torque``, naming the series they follow).
+
 Root attributes: format_version, tool_version, status, status_detail, scenario_toml,
 model_toml, time_step_s, sample_period_s, decimation, seed, engine_version, total_mass_kg,
 joint_names, leg_names, axis_convention. Further groups (phases, events, segments) may be
@@ -100,6 +104,7 @@ class RecordWriter:
         n = len(self.joint_names)
         self._peak_t = np.zeros(n)
         self._peak_w = np.zeros(n)
+        self._peak_ms = np.zeros(n)
         self._sum_t2 = np.zeros(n)
         self._sum_t = np.zeros(n)
         self._sat = np.zeros(n)
@@ -140,12 +145,20 @@ class RecordWriter:
 
     # -- every-step statistics --------------------------------------------------------------
     def accumulate(self, torque_nm: np.ndarray, speed_rad_s: np.ndarray,
-                   saturated: np.ndarray, dt: float) -> None:
-        """Add a block of steps, ``[step, joint]`` arrays, each step lasting ``dt`` seconds."""
+                   saturated: np.ndarray, dt: float,
+                   motor_side_torque_nm: np.ndarray | None = None) -> None:
+        """Add a block of steps, ``[step, joint]`` arrays, each step lasting ``dt`` seconds.
+
+        ``torque_nm`` is the load the joint carries at the reducer output (what histograms and
+        summary describe); ``motor_side_torque_nm``, when rotors or reducer losses make it
+        differ, is the motor torque times the ratio, of which only the peak is kept.
+        """
         t = np.asarray(torque_nm, float)
         w = np.asarray(speed_rad_s, float)
         if t.size == 0:
             return
+        ms = t if motor_side_torque_nm is None else np.asarray(motor_side_torque_nm, float)
+        np.maximum(self._peak_ms, np.abs(ms).max(axis=0), out=self._peak_ms)
         self._steps += t.shape[0]
         self._dt_total += dt * t.shape[0]
         np.maximum(self._peak_t, np.abs(t).max(axis=0), out=self._peak_t)
@@ -195,6 +208,7 @@ class RecordWriter:
             s.attrs["peak_torque_nm"] = self._peak_t[k]
             s.attrs["rms_torque_nm"] = np.sqrt(self._sum_t2[k] / dur) if dur > 0 else 0.0
             s.attrs["mean_torque_nm"] = self._sum_t[k] / dur if dur > 0 else 0.0
+            s.attrs["peak_motor_side_torque_nm"] = self._peak_ms[k]
             s.attrs["peak_speed_rad_s"] = self._peak_w[k]
             s.attrs["saturated_s"] = self._sat[k]
             s.attrs["duration_s"] = dur
@@ -227,7 +241,12 @@ class RecordWriter:
 
 @dataclass(frozen=True)
 class JointSummary:
+    """Exact every-step statistics of one joint. Torques are the load at the reducer output
+    (``gearbox_torque_nm`` when rotors or reducer losses are simulated, else ``torque_nm``);
+    ``peak_motor_side_torque_nm`` is the peak of motor torque x ratio."""
+
     peak_torque_nm: float
+    peak_motor_side_torque_nm: float
     rms_torque_nm: float
     mean_torque_nm: float
     peak_speed_rad_s: float

@@ -303,6 +303,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         "decimation": dec, "seed": d["seed"], "engine_version": f"pybullet {pb.getAPIVersion()}",
         "total_mass_kg": eng.total_mass_kg, "leg_names": list(LEGS),
         "series_written": series, "record_start_s": start_step * dt,
+        "load_torque": "gearbox_torque_nm" if eng.drive.records else "torque_nm",
         "scenario_file": os.path.basename(scn.file),
         "world_frame": "ground frame: z normal to the ground, x up the slope",
     }
@@ -317,7 +318,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     TQ = pb.TORQUE_CONTROL
     J = JOINT_INDICES
     R12 = range(12)
-    hb = np.empty((_BLOCK, 36))
+    hb = np.empty((_BLOCK, 48))  # load torque, speed, saturated, motor-side torque
     ns_cols = 1 + 12 * 5 + 13 + 12 + 4 + 4  # ... contact, planned stance
     sb = np.empty((_BLOCK // dec + 2, ns_cols))
     n_hb = 0
@@ -336,7 +337,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
             nonlocal n_hb, n_sb
             if n_hb:
                 blk = hb[:n_hb]
-                w.accumulate(blk[:, 0:12], blk[:, 12:24], blk[:, 24:36], dt)
+                w.accumulate(blk[:, 0:12], blk[:, 12:24], blk[:, 24:36], dt,
+                             blk[:, 36:48] if drv_rec else None)
                 seg_sum.work_j += float(np.maximum(blk[:, 0:12] * blk[:, 12:24], 0.0).sum()) * dt
                 n_hb = 0
             if n_sb and series:
@@ -484,7 +486,11 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                         drv.before_step(tau, qd)  # efficiency losses follow the torque
                     step(physicsClientId=c)
                     if i_global >= start_step:
-                        hb[n_hb] = tau + qd + sat
+                        if drv_rec:  # load at the reducer output differs from N tau_m
+                            gb = drv.gearbox_torque(tau, qd)
+                            hb[n_hb] = gb + qd + sat + tau
+                        else:
+                            hb[n_hb] = tau + qd + sat + tau
                         n_hb += 1
                         if series and (i_global - start_step) % dec == 0:
                             # base COM and orientation now; frame origin computed at flush
@@ -495,7 +501,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                                         *v, *om, *fv, *contact, *plan]
                             n_sb += 1
                             if drv_rec:
-                                drv.sample(tau, qd)
+                                drv.keep(gb)
                         if n_hb == _BLOCK:
                             flush()
                     i_global += 1
@@ -565,11 +571,10 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
             sm = rec.summary(jn)
             joints[jn] = {"peak_torque_nm": sm.peak_torque_nm, "rms_torque_nm": sm.rms_torque_nm,
                           "peak_speed_rad_s": sm.peak_speed_rad_s, "saturated_s": sm.saturated_s}
-    for jname in JOINT_NAMES:  # a rigid, lossless reducer passes the joint torque unchanged
-        joints[jname]["peak_gearbox_torque_nm"] = joints[jname]["peak_torque_nm"]
-    if drv.records and series:  # sim/drive.py: reducer output torque, over recorded samples
-        for jname, peak in drv.peaks().items():
-            joints[jname]["peak_gearbox_torque_nm"] = peak
+            # the summary follows the load at the reducer output (every step); the motor side
+            # (motor torque x ratio) differs when rotors or reducer losses are simulated
+            joints[jn]["peak_gearbox_torque_nm"] = sm.peak_torque_nm
+            joints[jn]["peak_motor_side_torque_nm"] = sm.peak_motor_side_torque_nm
     segs_out = [{"name": n, "kind": k, "start_s": a, "end_s": b, **f}
                 for (n, k, a, b), f in zip(seg_table, seg_figs, strict=True)]
     return RunResult(status, detail, path, joints, eng.total_mass_kg,

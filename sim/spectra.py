@@ -460,8 +460,9 @@ def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str
         accs[j] = _JointAccumulator(j, te, se, dt, levels_nm.get(j, ()), hold_speed_rad_s,
                                     hold_torque_nm, leg_ok[legs[j]])
     names: list[str] = []
+    load = str(rec.attrs.get("load_torque", "torque_nm"))  # reducer output torque series
     for j in joints:
-        names += [f"joints/{j}/torque_nm", f"joints/{j}/speed_rad_s"]
+        names += [f"joints/{j}/{load}", f"joints/{j}/speed_rad_s"]
     leg_list = sorted(leg for leg, ok in leg_ok.items() if ok)
     names += [f"feet/{leg}/contact" for leg in leg_list]
     for _, arrays in rec.iter_chunks(names, rows):

@@ -183,7 +183,8 @@ def _run_provider(ctx: CaseContext) -> Mapping[str, Any]:
 RUN_SCHEMA: dict[str, Any] = {
     "total_mass_kg": NUM,
     "joints": {JOINT: {"peak_torque_nm": NUM, "rms_torque_nm": NUM, "peak_speed_rad_s": NUM,
-                       "saturated_s": NUM, "peak_gearbox_torque_nm": NUM}},
+                       "saturated_s": NUM, "peak_gearbox_torque_nm": NUM,
+                       "peak_motor_side_torque_nm": NUM}},
     # locomotion figures of the whole run (mean forward speed, tilt RMS, slip, cost of
     # transport, ...; see sim.runner.RunSummary) and per segment
     "summary": {ANY: NUM},
