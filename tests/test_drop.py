@@ -142,3 +142,31 @@ def test_spectra_of_a_rotor_run_follow_the_reducer_output_torque(tmp_path):
     assert s.peak_motor_side_torque_nm == pytest.approx(ms, rel=1e-9)
     # time at level: every step counted once
     assert spec.time_s.sum() == pytest.approx(s.duration_s, rel=1e-9)
+
+
+def test_motor_check_does_not_count_simulated_rotors_twice(tmp_path):
+    # with rotors in the simulation, torque_nm is already motor torque x ratio including the
+    # rotor's inertia: the motor check must then take it as is (T_m = torque_nm / N, the
+    # ideal-gear relation), not add J_r alpha again
+    from sim.checks.motor import check_motors, load_motor_part, simulated_drive_effects
+    from sim.checks.supply import load_supply
+    from sim.drivetrain import load_drivetrain
+
+    from .conftest import MODELS
+
+    _, path = _drop(tmp_path, "rot", ["drive.rotor_inertia=exact", "record.decimation=1",
+                                      "ground.stiffness_n_m=0", "ground.damping_n_s_m=0"])
+    with open_record(path) as rec:
+        assert simulated_drive_effects(rec) == (True, False)
+        tau = rec.read("joints/fl_knee/torque_nm")
+        w = rec.read("joints/fl_knee/speed_rad_s")
+    dt = load_drivetrain(MODELS / "drivetrain_demo.toml")
+    motor = load_motor_part(dt.joints["fl_knee"].motor_path)
+    supply = load_supply(dict(dt.supply), dt.file)
+    rep = check_motors(str(path), {"fl_knee": (motor, 9.0, 1.0, 1.0, 0.0)}, supply)
+    peak_motor = rep.joint_summary("fl_knee")["peak_torque_nm"]
+    # bound on the motor's own drag (Coulomb, hysteresis, viscous and eddy at top speed)
+    drag = (motor.friction_torque_nm + motor.hysteresis_loss_w_s_per_rad
+            + (motor.viscous_friction_nm_s_per_rad + motor.eddy_loss_w_s2_per_rad2)
+            * 9.0 * np.abs(w).max())
+    assert abs(peak_motor - np.abs(tau).max() / 9.0) <= drag + 1e-9

@@ -570,6 +570,7 @@ class _Bank:
         self.k = col([x.motor.back_emf_v_s_per_rad for x in d])
         self.r20 = col([float(x.motor.line_resistance_ohm(20.0)) for x in d])
         self.inertia = col([x.motor.rotor_inertia_kg_m2 + x.input_inertia_kg_m2 for x in d])
+        self.rotor = col([x.motor.rotor_inertia_kg_m2 for x in d])
         self.ratio = col([x.ratio for x in d])
         self.eta_f = col([x.efficiency_forward for x in d])
         self.eta_b = col([x.efficiency_back for x in d])
@@ -601,6 +602,29 @@ class _Chunk:
     speed_xy: np.ndarray | None  # [rows] horizontal base speed
 
 
+def simulated_drive_effects(rec: RunRecord) -> tuple[bool, bool]:
+    """``(rotors, losses)``: whether the run simulated motor rotors and reducer losses."""
+    import tomllib
+
+    if rec.attrs.get("load_torque", "torque_nm") != "gearbox_torque_nm":
+        return False, False
+    try:
+        scn = tomllib.loads(str(rec.attrs.get("scenario_toml", "")))
+    except tomllib.TOMLDecodeError:
+        return False, False
+    drive = scn.get("drive", {})
+    rotors = drive.get("rotor_inertia", "off") != "off"
+    losses = False
+    if drive.get("losses", True):
+        from sim.model import model_from_data
+
+        acts = model_from_data(tomllib.loads(str(rec.attrs["model_toml"])),
+                               str(rec.path)).actuators.values()
+        losses = any(a.friction_coulomb_nm > 0 or a.friction_viscous_nm_s_rad > 0
+                     or a.efficiency_forward < 1 or a.efficiency_back < 1 for a in acts)
+    return rotors, losses
+
+
 def _chunks(rec: RunRecord, bank: _Bank, rows: int) -> Iterator[_Chunk]:
     names = [f"joints/{j}/{q}" for j in bank.joints for q in ("torque_nm", "speed_rad_s")]
     has_v = rec.has("base/velocity_m_s")
@@ -608,22 +632,29 @@ def _chunks(rec: RunRecord, bank: _Bank, rows: int) -> Iterator[_Chunk]:
         names.append("base/velocity_m_s")
     dt = float(rec.attrs["sample_period_s"])
     nj = len(bank.joints)
+    rotors, losses = simulated_drive_effects(rec)
+    # what the simulation already contains is not added again: with rotors simulated, the
+    # recorded torque_nm (motor torque x ratio) includes the rotor's inertia; with reducer
+    # losses simulated, it includes the reducer's friction and efficiency
+    eta_f = np.ones_like(bank.eta_f) if losses else bank.eta_f
+    eta_b = np.ones_like(bank.eta_b) if losses else bank.eta_b
+    inertia = bank.inertia - bank.rotor if rotors else bank.inertia
     prev: np.ndarray | None = None
     for start, arrays in rec.iter_chunks(names, rows):
         tau = np.stack(arrays[0:2 * nj:2])
         w = np.stack(arrays[1:2 * nj:2])
-        t_sh, w_m = motor_operating_points(tau, w, bank.ratio, bank.eta_f, bank.eta_b)
+        t_sh, w_m = motor_operating_points(tau, w, bank.ratio, eta_f, eta_b)
         before = w_m[:, :1] if prev is None else prev
         alpha = np.diff(w_m, axis=1, prepend=before) / dt
         prev = w_m[:, -1:]
         drag_t = bank.coulomb * np.sign(w_m) + bank.viscous * w_m
-        t_em = t_sh + drag_t + bank.inertia * alpha
+        t_em = t_sh + drag_t + inertia * alpha
         speed_xy = None
         if has_v:
             v = arrays[-1]
             speed_xy = np.hypot(v[:, 0], v[:, 1])
         yield _Chunk(start, tau, w, t_em, w_m, t_em / bank.k, t_sh, drag_t * w_m,
-                     bank.inertia * alpha * w_m, speed_xy)
+                     inertia * alpha * w_m, speed_xy)
 
 
 def _step_maps(bank: _Bank, dt: float, c: _Chunk) -> th.Maps:
