@@ -18,7 +18,7 @@ PSI = 6894.757293168
 @pytest.mark.parametrize(("z", "y"), [(12, 0.245), (16, 0.296), (20, 0.322), (30, 0.359),
                                       (100, 0.447), (400, 0.480), (10000, 0.485)])
 def test_form_factor_table_14_2(z, y):
-    # Shigley Table 14-2, 20 deg full depth (from memory, checked against transcriptions)
+    # Shigley Table 14-2, 20 deg full depth (from memory, checked against published reproductions)
     assert g.lewis_form_factor(z) == pytest.approx(y, abs=1e-12)
 
 

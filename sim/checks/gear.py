@@ -1,7 +1,7 @@
 """Spur-gear tooth bending by the Lewis equation, with the Barth-type dynamic factor.
 
 Shigley, *Mechanical Engineering Design*, ch. 14 (from memory; form-factor table checked
-against several public transcriptions of Table 14-2):
+against several public reproductions of Table 14-2):
 
     sigma = K_v W_t / (b m Y)            (SI: module m, face width b)
     K_v = (6.1 + V)/6.1   cut or milled profile, V pitch-line speed in m/s
