@@ -21,7 +21,8 @@ from sim.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
 
-SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump")
+SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump", "bound",
+                 "pronk")
 
 SCENARIO_SPEC: dict[str, Any] = {
     "description": Field(str, "free text", default=""),
