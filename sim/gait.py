@@ -109,7 +109,7 @@ SEGMENT_SPECS: dict[str, dict[str, Any]] = {
     "walk": _gait_spec(0.8, 0.8, 0.05, 0.25, walk=True),
     "trot": _gait_spec(0.3, 0.5, 0.06, 0.6, walk=False),
     "bound": _gait_spec(0.2, 0.6, 0.05, 0.5, walk=False),
-    "pronk": _gait_spec(0.2, 0.7, 0.04, 0.3, walk=False),
+    "pronk": _gait_spec(0.2, 0.8, 0.04, 0.3, walk=False),
 }
 
 CONTROLLERS: dict[str, type[SegmentController]] = {
