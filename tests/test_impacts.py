@@ -180,7 +180,7 @@ def test_misspelt_disturbance_keys_are_rejected(tmp_path, key, text):
     assert f"{key}.0." in str(err.value)
 
 
-def test_no_disturbance_gives_the_same_record_series_as_before(tmp_path):
+def test_an_empty_push_list_gives_the_same_run_as_no_push_key(tmp_path):
     # an empty [[push]] list must not change the run: bit-identical series (common practice
     # for an optional feature)
     over = ["segment.1.duration_s=0.5", "record.start_s=0.6", "record.decimation=10"]
