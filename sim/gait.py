@@ -22,7 +22,12 @@ from sim.gaits.base import (
     nominal_feet_b,
     stance_angles,
 )
-from sim.gaits.locomotion import TrotController, WalkController
+from sim.gaits.locomotion import (
+    BoundController,
+    PronkController,
+    TrotController,
+    WalkController,
+)
 from sim.gaits.posture import LieController, SitDownController, StandUpController
 from sim.model import RobotModel
 from sim.statics import StanceStatics
@@ -103,6 +108,8 @@ SEGMENT_SPECS: dict[str, dict[str, Any]] = {
     "lie": {"fold_knee_rad": _posture_spec(1.0)["fold_knee_rad"], **_gain_tables()},
     "walk": _gait_spec(0.8, 0.8, 0.05, 0.25, walk=True),
     "trot": _gait_spec(0.3, 0.5, 0.06, 0.6, walk=False),
+    "bound": _gait_spec(0.2, 0.6, 0.05, 0.5, walk=False),
+    "pronk": _gait_spec(0.2, 0.8, 0.04, 0.3, walk=False),
 }
 
 CONTROLLERS: dict[str, type[SegmentController]] = {
@@ -112,6 +119,8 @@ CONTROLLERS: dict[str, type[SegmentController]] = {
     "lie": LieController,
     "walk": WalkController,
     "trot": TrotController,
+    "bound": BoundController,
+    "pronk": PronkController,
 }
 
 

@@ -16,6 +16,8 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /base/orientation_xyzw                  [sample, 4]         unit quaternion
     /base/velocity_m_s                      [sample, 3]         m/s, world frame
     /base/angular_velocity_rad_s            [sample, 3]         rad/s, world frame
+    /base/external_force_n                  [sample, 3]         N, pushes on the body, world
+                                            frame (present when the scenario has [[push]])
     /histograms/<joint>/time_s              [torque_bin, speed_bin]   s at each level, every step
     /histograms/<joint>/revolutions         [torque_bin, speed_bin]   exact sum |speed| dt / 2 pi
     /histograms/<joint>/torque_revolutions_nm [torque_bin, speed_bin] sum torque |speed| dt / 2 pi
@@ -56,7 +58,8 @@ AXIS_CONVENTION = "sample-major: series are [sample] or [sample, component]"
 
 UNITS = {
     "time_s": "s", "angle_rad": "rad", "speed_rad_s": "rad/s", "torque_nm": "N m",
-    "torque_command_nm": "N m", "gearbox_torque_nm": "N m", "force_n": "N", "position_m": "m", "orientation_xyzw": "1",
+    "torque_command_nm": "N m", "gearbox_torque_nm": "N m", "force_n": "N",
+    "external_force_n": "N", "position_m": "m", "orientation_xyzw": "1",
     "velocity_m_s": "m/s", "angular_velocity_rad_s": "rad/s", "saturated": "1", "contact": "1",
     "torque_edges_nm": "N m", "speed_edges_rad_s": "rad/s", "revolutions": "rev",
     "torque_revolutions_nm": "N m rev", "torque_time_nm_s": "N m s",

@@ -318,9 +318,20 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     TQ = pb.TORQUE_CONTROL
     J = JOINT_INDICES
     R12 = range(12)
+    # disturbances (sim/disturbance.py): pushes [first step, end step, force, offset], trips
+    pushes = [(round(p_["start_s"] / dt), round((p_["start_s"] + p_["duration_s"]) / dt),
+               [float(x) for x in p_["force_n"]], [float(x) for x in p_["point_m"]])
+              for p_ in d.get("push", [])]
+    trips = [{"k": LEGS.index(t_["leg"]), "arm": round(t_["start_s"] / dt),
+              "after": round(t_["after_liftoff_s"] / dt), "hold": round(t_["duration_s"] / dt),
+              "max_f": float(t_["max_force_n"]), "swing_since": -1, "cid": -1, "until": -1,
+              "done": False} for t_ in d.get("trip", [])]
+    disturb = bool(pushes or trips)
+    f_ext = [0.0, 0.0, 0.0]
     hb = np.empty((_BLOCK, 48))  # load torque, speed, saturated, motor-side torque
     ns_cols = 1 + 12 * 5 + 13 + 12 + 4 + 4  # ... contact, planned stance
     sb = np.empty((_BLOCK // dec + 2, ns_cols))
+    eb = np.zeros((_BLOCK // dec + 2, 3)) if pushes else sb[:0, :3]  # external force
     n_hb = 0
     n_sb = 0
     seg_table = []
@@ -366,6 +377,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                 o += 4
                 for k, leg in enumerate(LEGS):  # planned phase: 1 = stance, 0 = swing
                     w.append(f"feet/{leg}/phase_plan", s_[:, o + k], dtype="i1")
+                if pushes:
+                    w.append("base/external_force_n", eb[:n_sb])
             n_sb = 0
 
         def measure(i_g: int, q: list[float] | None = None, qd: list[float] | None = None,
@@ -385,6 +398,44 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         seg_sum = RunSummary()
         events: dict[str, list[list[float]]] = {"touchdown": [[], [], [], []],
                                                 "liftoff": [[], [], [], []]}
+        if trips:
+            events["trip_start"] = [[], [], [], []]
+            events["trip_end"] = [[], [], [], []]
+
+        def disturbances(i_g: int, plan: list[float]) -> list[float]:
+            """Apply the pushes and trips of step ``i_g``; return the total push (N, world)."""
+            f = [0.0, 0.0, 0.0]
+            for a, b, fw, off in pushes:
+                if a <= i_g < b:
+                    com = getBase(r, physicsClientId=c)[0]
+                    pb.applyExternalForce(r, -1, fw, [com[0] + off[0], com[1] + off[1],
+                                                      com[2] + off[2]], pb.WORLD_FRAME,
+                                          physicsClientId=c)
+                    f = [f[0] + fw[0], f[1] + fw[1], f[2] + fw[2]]
+            for tr in trips:
+                if tr["done"]:
+                    continue
+                k = tr["k"]
+                if tr["cid"] >= 0:
+                    if i_g >= tr["until"]:
+                        pb.removeConstraint(tr["cid"], physicsClientId=c)
+                        tr["cid"], tr["done"] = -1, True
+                        events["trip_end"][k].append(i_g * dt)
+                    continue
+                if plan[k] > 0.5:
+                    tr["swing_since"] = -1
+                    continue
+                if tr["swing_since"] < 0:
+                    tr["swing_since"] = i_g
+                if i_g >= tr["arm"] and i_g - tr["swing_since"] >= tr["after"]:
+                    foot = pb.getLinkState(r, FOOT_LINKS[k], physicsClientId=c)[0]
+                    cid = pb.createConstraint(r, FOOT_LINKS[k], -1, -1, pb.JOINT_POINT2POINT,
+                                              [0, 0, 0], [0, 0, 0], foot, physicsClientId=c)
+                    pb.changeConstraint(cid, maxForce=tr["max_f"], physicsClientId=c)
+                    tr["cid"], tr["until"] = cid, i_g + tr["hold"]
+                    events["trip_start"][k].append(i_g * dt)
+            return f
+
         prev_contact = [True] * 4
         r_foot = statics.kin.foot_radius_m
 
@@ -482,6 +533,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                         else:
                             tau[j] = x
                     setJ(r, J, TQ, forces=tau, physicsClientId=c)
+                    if disturb:
+                        f_ext = disturbances(i_global, plan)
                     if drv_step:
                         drv.before_step(tau, qd)  # efficiency losses follow the torque
                     step(physicsClientId=c)
@@ -499,6 +552,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                             fv, contact = eng.foot_forces()
                             sb[n_sb] = [i_global * dt, *q, *qd, *tau, *tc, *sat, *pos, *orn,
                                         *v, *om, *fv, *contact, *plan]
+                            if pushes:
+                                eb[n_sb] = f_ext
                             n_sb += 1
                             if drv_rec:
                                 drv.keep(gb)

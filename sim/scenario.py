@@ -21,7 +21,8 @@ from sim.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
 
-SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump")
+SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump", "bound",
+                 "pronk")
 
 SCENARIO_SPEC: dict[str, Any] = {
     "description": Field(str, "free text", default=""),
@@ -88,6 +89,10 @@ SCENARIO_SPEC: dict[str, Any] = {
     },
     "segment": Field(list, "segments run in order, each a table with kind and duration_s",
                      required=True, item=dict),
+    "push": Field(list, "external pushes on the body (sim/disturbance.py)", default=[],
+                  item=dict),
+    "trip": Field(list, "swing feet held fast for a while (sim/disturbance.py)", default=[],
+                  item=dict),
 }
 
 SEGMENT_BASE = {
@@ -150,6 +155,10 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
         if not v["name"]:
             v["name"] = f"{i}_{v['kind']}"
         segments.append(v)
+    from sim.disturbance import PUSH_SPEC, TRIP_SPEC, validate_disturbances
+
+    values["push"] = validate_disturbances(values["push"], PUSH_SPEC, "push", str(path))
+    values["trip"] = validate_disturbances(values["trip"], TRIP_SPEC, "trip", str(path))
     robot_path = (path.parent / values["robot"]).resolve()
     mdata = load_toml(robot_path, "robot model file")
     for key, value in model_over.items():

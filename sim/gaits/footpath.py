@@ -21,6 +21,8 @@ from collections.abc import Sequence
 
 TROT_LIFT = (0.0, 0.5, 0.5, 0.0)  # fl, fr, hl, hr: diagonal pairs half a cycle apart
 WALK_LIFT = (0.25, 0.75, 0.0, 0.5)  # lateral sequence hl, fl, hr, fr
+BOUND_LIFT = (0.0, 0.0, 0.5, 0.5)  # front pair together, hind pair half a cycle later
+PRONK_LIFT = (0.0, 0.0, 0.0, 0.0)  # all four together
 
 
 def phases(t_s: float, period_s: float, duty: float, lift: Sequence[float]) -> list[float]:

@@ -1,4 +1,4 @@
-"""Walk and trot: one periodic-gait controller with two phase patterns.
+"""Walk, trot, bound and pronk: one periodic-gait controller with four phase patterns.
 
 Every control update:
 
@@ -42,7 +42,15 @@ from sim.gaits.base import (
     rot_rp,
     smoothstep,
 )
-from sim.gaits.footpath import TROT_LIFT, WALK_LIFT, phases, swing_curve, touchdown_offset
+from sim.gaits.footpath import (
+    BOUND_LIFT,
+    PRONK_LIFT,
+    TROT_LIFT,
+    WALK_LIFT,
+    phases,
+    swing_curve,
+    touchdown_offset,
+)
 from sim.gaits.legs import LegSolver
 from sim.gaits.load import distribute, load_weights
 from sim.model import RobotModel
@@ -247,3 +255,15 @@ class WalkController(GaitController):
     """Lateral-sequence walk (hl, fl, hr, fr), one foot at a time, body shifted over support."""
 
     lift = WALK_LIFT
+
+
+class BoundController(GaitController):
+    """Front pair (fl + fr) together, hind pair (hl + hr) half a period later."""
+
+    lift = BOUND_LIFT
+
+
+class PronkController(GaitController):
+    """All four legs lift off and touch down together."""
+
+    lift = PRONK_LIFT
