@@ -6,12 +6,12 @@ and without a timestamp or software tag, so the same inputs give the same bytes.
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from sim.atomic import save_figure_atomic
 from sim.rainflow import Cycles
 from sim.spectra import JointSpectrum, load_duration
 
@@ -29,16 +29,11 @@ def pyplot() -> Any:
 def save_png(fig: Any, path: str | Path, dpi: int = 100, caption: str | None = None) -> Path:
     """Write ``fig`` as PNG atomically (temporary file, rename), without a software stamp so
     the same figure gives the same bytes; close the figure."""
-    p = Path(path)
-    p.parent.mkdir(parents=True, exist_ok=True)
-    tmp = p.with_name(f".{p.name}.{os.getpid()}.tmp")
     if caption:
         fig.text(0.01, 0.005, caption, fontsize=6, color="0.4")
     try:
-        fig.savefig(tmp, format="png", dpi=dpi, metadata={"Software": None})
-        os.replace(tmp, p)
+        p = save_figure_atomic(fig, path, format="png", dpi=dpi, metadata={"Software": None})
     finally:
-        tmp.unlink(missing_ok=True)
         if hasattr(fig, "number"):  # a pyplot figure: release it
             pyplot().close(fig)
     return p

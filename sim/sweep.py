@@ -68,6 +68,7 @@ from typing import Any
 import numpy as np
 
 from sim import JOINT_KINDS, JOINT_NAMES
+from sim.atomic import write_bytes_atomic
 from sim.config import Field, dump_toml, load_toml, validate
 from sim.errors import GaitloadError, InputError
 
@@ -856,16 +857,7 @@ def run_case(spec: Mapping[str, Any], out_dir: str | None = None) -> dict[str, A
 
 def write_atomic(path: Path, data: bytes) -> None:
     """Write ``data`` to ``path`` through a temporary file in the same folder."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    write_bytes_atomic(path, data)
 
 
 def _json_bytes(doc: Any) -> bytes:

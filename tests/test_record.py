@@ -68,3 +68,13 @@ def test_reader_refuses_failed_run_unless_allowed(tmp_path):
         with pytest.raises(RecordError, match="completed run"):
             rec.require_completed()
         rec.require_completed(allow_failed=True)
+
+
+def test_atomic_text_and_bytes_writers_leave_no_half_file(tmp_path):
+    from sim.atomic import write_bytes_atomic, write_text_atomic
+
+    p = write_text_atomic(tmp_path / "a" / "x.csv", "t,x\n0,1\n")
+    assert p.read_text() == "t,x\n0,1\n"
+    with pytest.raises(TypeError):
+        write_bytes_atomic(tmp_path / "a" / "y.bin", "not bytes")  # type: ignore[arg-type]
+    assert sorted(q.name for q in (tmp_path / "a").iterdir()) == ["x.csv"]

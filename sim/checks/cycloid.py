@@ -37,7 +37,6 @@ peak pin force is a lower bound), friction, pin bending, ring-pin bearings.
 from __future__ import annotations
 
 import math
-import os
 from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import cached_property
@@ -46,6 +45,7 @@ from typing import Any
 
 import numpy as np
 
+from sim.atomic import write_text_atomic
 from sim.checks.bearing import (
     Bearing,
     bearing_from_table,
@@ -496,10 +496,7 @@ def cycloid_from_table(data: Mapping[str, Any], file: str) -> CycloidStage:
 # ---- profile export -----------------------------------------------------------------------
 
 def _atomic_write(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    write_text_atomic(path, text)
 
 
 def write_profile_csv(stage: CycloidStage, path: str | Path, points: int = 720) -> Path:

@@ -6,9 +6,9 @@ inputs give the same bytes.
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
+from sim.atomic import save_figure_atomic
 from sim.checks.report import CheckReport
 
 
@@ -38,10 +38,6 @@ def plot_utilisation(report: CheckReport, path: str | Path, section: str = "redu
         ax.set_title(f"{section} limits per joint (estimates)")
         ax.legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.0, 1.0))
         fig.tight_layout()
-        p = Path(path)
-        p.parent.mkdir(parents=True, exist_ok=True)
-        tmp = p.with_name(f".{p.name}.{os.getpid()}.tmp")
-        fig.savefig(tmp, format="svg", metadata={"Date": None})
+        p = save_figure_atomic(fig, path, format="svg", metadata={"Date": None})
         plt.close(fig)
-    os.replace(tmp, p)
     return p

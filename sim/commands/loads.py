@@ -6,13 +6,13 @@ import argparse
 import csv
 import io
 import json
-import os
 import sys
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
+from sim.atomic import write_text_atomic
 from sim.errors import InputError
 from sim.mix import UsageMix, mix_of_records, resolve_usage
 from sim.rainflow import BasquinCurve
@@ -76,14 +76,7 @@ def _mix_from_args(args: argparse.Namespace) -> UsageMix:
 
 
 def _write_text(path: Path, text: str) -> None:
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        with tmp.open("w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    finally:
-        tmp.unlink(missing_ok=True)
+    write_text_atomic(path, text)
 
 
 def _csv_text(header: list[str], rows: list[list[Any]]) -> str:

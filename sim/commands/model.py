@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 from pathlib import Path
 from typing import Any
 
+from sim.atomic import write_text_atomic
 from sim.config import parse_override
 from sim.model import load_model
 from sim.urdf import build_urdf
@@ -24,16 +24,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def write_atomic(path: str | Path, text: str) -> Path:
-    """Write ``text`` to ``path`` through a temporary file in the same directory."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        tmp.write_text(text)
-        os.replace(tmp, path)
-    finally:
-        tmp.unlink(missing_ok=True)
-    return path
+    """Write ``text`` to ``path`` atomically (see :mod:`sim.atomic`)."""
+    return write_text_atomic(path, text)
 
 
 def execute(args: argparse.Namespace) -> int:
