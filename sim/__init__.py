@@ -3,7 +3,7 @@
 Module map and the one dependency rule (data flows top to bottom; a module may import
 only from modules above it or beside it in the same group):
 
-    errors, config                 - error hierarchy, strict TOML reading
+    errors, config, atomic         - error hierarchy, strict TOML reading, atomic file output
     inertia, model, kinematics,    - robot description (pure numpy)
     actuator, statics, urdf,
     backdrive
