@@ -240,17 +240,23 @@ def test_sliding_knee_decelerates_at_tau_c_over_j(world, mode):
     assert (5.0 - qd[2]) / (n * DT) == pytest.approx(0.5 / j, rel=1e-3)
 
 
-def test_forward_efficiency_scales_the_delivered_torque(world):
-    model, r, drv = _robot(world, "off", {**LOCK, "actuator.knee.efficiency_forward": 0.8})
-    pb.resetJointState(r, 2, STAND_Q[2], 1.0, physicsClientId=world)
+
+def _knee_step(world, r, drv, speed_rad_s, torque_nm):
+    """One step with the fl knee at ``speed_rad_s`` and ``torque_nm`` commanded on it."""
+    pb.resetJointState(r, 2, STAND_Q[2], speed_rad_s, physicsClientId=world)
     tau = [0.0] * 12
-    tau[2] = 1.2  # driving: torque and speed of one sign
+    tau[2] = torque_nm
     _, qd0 = _states(world, r, JOINT_INDICES)
     pb.setJointMotorControlArray(r, JOINT_INDICES, pb.TORQUE_CONTROL, forces=tau,
                                  physicsClientId=world)
     drv.before_step(tau, qd0)
     pb.stepSimulation(physicsClientId=world)
     _, qd = _states(world, r, JOINT_INDICES)
+    return tau, qd0, qd
+
+def test_forward_efficiency_scales_the_delivered_torque(world):
+    model, r, drv = _robot(world, "off", {**LOCK, "actuator.knee.efficiency_forward": 0.8})
+    tau, qd0, qd = _knee_step(world, r, drv, 1.0, 1.2)  # driving: torque and speed agree
     j = _shank_inertia_about_knee(model)
     # power-flow efficiency model: output torque = eta_f tau when the motor drives
     assert (qd[2] - 1.0) / DT == pytest.approx(0.8 * 1.2 / j, rel=1e-3)
@@ -259,15 +265,7 @@ def test_forward_efficiency_scales_the_delivered_torque(world):
 
 def test_back_driving_needs_torque_over_back_efficiency(world):
     model, r, drv = _robot(world, "off", {**LOCK, "actuator.knee.efficiency_back": 0.5})
-    pb.resetJointState(r, 2, STAND_Q[2], -1.0, physicsClientId=world)
-    tau = [0.0] * 12
-    tau[2] = 0.6  # the load drives the joint against the motor
-    _, qd0 = _states(world, r, JOINT_INDICES)
-    pb.setJointMotorControlArray(r, JOINT_INDICES, pb.TORQUE_CONTROL, forces=tau,
-                                 physicsClientId=world)
-    drv.before_step(tau, qd0)
-    pb.stepSimulation(physicsClientId=world)
-    _, qd = _states(world, r, JOINT_INDICES)
+    _, _, qd = _knee_step(world, r, drv, -1.0, 0.6)  # the load drives against the motor
     j = _shank_inertia_about_knee(model)
     # back-driven: the output sees tau / eta_b (it must supply that to turn the motor)
     assert (qd[2] + 1.0) / DT == pytest.approx(0.6 / 0.5 / j, rel=1e-3)
