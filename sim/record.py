@@ -133,6 +133,9 @@ class RecordWriter:
             unit = _unit_for(name)
             if unit:
                 ds.attrs["unit"] = unit
+        # write the cached chunks now: file space is then allocated in the order of the calls,
+        # not in the order dataset handles happen to be released, so records are bit-identical
+        ds.flush()
 
     def put(self, name: str, data: Any, **attrs: Any) -> None:
         """Write a small fixed dataset (events, segment tables) in one go."""
