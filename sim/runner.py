@@ -188,15 +188,6 @@ class Engine:
                                            [0, 0, 0, 1], physicsClientId=c)
         pb.resetBaseVelocity(r, [0, 0, 0], [0, 0, 0], physicsClientId=c)
 
-    def base_state(self) -> tuple[np.ndarray, list[float], np.ndarray, list[float], list[float]]:
-        """Base frame origin, quaternion xyzw, rotation, linear and angular velocity (world)."""
-        c, r = self.cid, self.robot
-        pos, orn = pb.getBasePositionAndOrientation(r, physicsClientId=c)
-        R = np.array(pb.getMatrixFromQuaternion(orn)).reshape(3, 3)
-        origin = np.array(pos) - R @ self.base_local_com
-        v, w = pb.getBaseVelocity(r, physicsClientId=c)
-        return origin, list(orn), R, list(v), list(w)
-
     def foot_forces(self) -> tuple[list[float], list[float]]:
         """Ground force on each foot (world frame, 12 numbers) and contact flags (4)."""
         f = [0.0] * 12
@@ -230,6 +221,11 @@ def quat_rotate(q_xyzw: np.ndarray, v: np.ndarray) -> np.ndarray:
     w = q_xyzw[:, 3:4]
     t = 2.0 * np.cross(xyz, v)
     return v + w * t + np.cross(xyz, t)
+
+
+def _flat12(x: Any) -> list[float]:
+    """A controller output (``[4, 3]`` array or flat list of 12) as a flat list."""
+    return x if isinstance(x, list) else x.reshape(-1).tolist()
 
 
 def _edges(scn: Scenario) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
@@ -269,6 +265,38 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     B = [e.b for e in envs]
     C = [e.c for e in envs]
     CORNER = [e.corner_speed_rad_s for e in envs]
+    # inside this box for every joint at once, no joint can be clamped (fast path below)
+    A_MIN, CORNER_MIN = min(A), min(CORNER)
+
+    def clamp(tc: list[float], qd: list[float]) -> tuple[list[float], list[float]]:
+        """Each command clamped to its envelope at the joint speed; saturation flags."""
+        tau = [0.0] * 12
+        sat = [0.0] * 12
+        for j in range(12):
+            x = tc[j]
+            wj = qd[j]
+            aj = A[j]
+            cj = CORNER[j]
+            if -aj <= x <= aj and -cj <= wj <= cj:
+                tau[j] = x
+                continue
+            hi = B[j] - C[j] * wj
+            if hi > aj:
+                hi = aj
+            lo = -B[j] - C[j] * wj
+            if lo < -aj:
+                lo = -aj
+            if hi < lo:
+                hi = lo
+            if x > hi:
+                tau[j] = hi
+                sat[j] = 1.0
+            elif x < lo:
+                tau[j] = lo
+                sat[j] = 1.0
+            else:
+                tau[j] = x
+        return tau, sat
     kinds = [j.split("_")[1] for j in JOINT_NAMES]
     KP = [d["control"]["kp_nm_rad"][k] for k in kinds]
     KD = [d["control"]["kd_nm_s_rad"][k] for k in kinds]
@@ -317,7 +345,6 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     getVel = pb.getBaseVelocity
     TQ = pb.TORQUE_CONTROL
     J = JOINT_INDICES
-    R12 = range(12)
     # disturbances (sim/disturbance.py): pushes [first step, end step, force, offset], trips
     pushes = [(round(p_["start_s"] / dt), round((p_["start_s"] + p_["duration_s"]) / dt),
                [float(x) for x in p_["force_n"]], [float(x) for x in p_["point_m"]])
@@ -381,18 +408,26 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                     w.append("base/external_force_n", eb[:n_sb])
             n_sb = 0
 
+        com_l = eng.base_local_com.tolist()
+        grav_l = eng.gravity_w.tolist()
+
         def measure(i_g: int, q: list[float] | None = None, qd: list[float] | None = None,
                     contacts: bool = True) -> RobotState:
-            """The measured state the controllers see."""
+            """The measured state the controllers see (plain floats; see RobotState)."""
             if q is None or qd is None:
                 st = getJS(r, J, physicsClientId=c)
                 q = [s[0] for s in st]
                 qd = [s[1] for s in st]
-            origin, _orn, Rm, v, om = eng.base_state()
+            pos, (x, y, z, w_) = getBase(r, physicsClientId=c)
+            # rotation matrix of the unit quaternion (x, y, z, w), world from base
+            R = [[1.0 - 2.0 * (y * y + z * z), 2.0 * (x * y - z * w_), 2.0 * (x * z + y * w_)],
+                 [2.0 * (x * y + z * w_), 1.0 - 2.0 * (x * x + z * z), 2.0 * (y * z - x * w_)],
+                 [2.0 * (x * z - y * w_), 2.0 * (y * z + x * w_), 1.0 - 2.0 * (x * x + y * y)]]
+            cx, cy, cz = com_l  # base frame origin = COM - R c
+            origin = [pos[i] - (R[i][0] * cx + R[i][1] * cy + R[i][2] * cz) for i in range(3)]
+            v, om = getVel(r, physicsClientId=c)
             contact = eng.foot_forces()[1] if contacts else [1.0] * 4
-            return RobotState(i_g * dt, np.reshape(q, (4, 3)), np.reshape(qd, (4, 3)), origin,
-                              Rm, np.array(v), np.array(om), eng.gravity_w,
-                              np.array(contact) > 0)
+            return RobotState(i_g * dt, q, qd, origin, R, list(v), list(om), grav_l, contact)
 
         seg_sums: list[RunSummary] = []
         seg_sum = RunSummary()
@@ -443,21 +478,21 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                     dtu: float) -> None:
             """Touchdown/lift-off events and the summary figures at a control update."""
             nonlocal prev_contact
-            cont = state.contact.tolist()
+            cont = state.contact_list
             t_now = state.t_s
             for k in range(4):
                 if cont[k] != prev_contact[k]:
                     events["touchdown" if cont[k] else "liftoff"][k].append(t_now)
             prev_contact = cont
-            Rl = state.base_rotation
-            yaw = math.atan2(Rl[1, 0], Rl[0, 0])
-            v = state.base_velocity_m_s
+            Rl = state.base_rotation_list
+            yaw = math.atan2(Rl[1][0], Rl[0][0])
+            v = state.base_velocity_list
             acc.time_s += dtu
             acc.fwd += (math.cos(yaw) * v[0] + math.sin(yaw) * v[1]) * dtu
             acc.cmd += ctrl.commanded_velocity()[0] * dtu if hasattr(
                 ctrl, "commanded_velocity") else 0.0
-            acc.tilt2 += math.acos(max(-1.0, min(1.0, float(Rl[2, 2])))) ** 2 * dtu
-            pos = state.base_position_m
+            acc.tilt2 += math.acos(max(-1.0, min(1.0, Rl[2][2]))) ** 2 * dtu
+            pos = state.base_position_list
             if acc.p0 is None:
                 acc.p0 = [float(pos[0]), float(pos[1])]
             acc.p1 = [float(pos[0]), float(pos[1])]
@@ -485,9 +520,11 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                 plan = [1.0] * 4
                 upd_i = 0
                 dtu = upd_every * dt
-                qdes = [0.0] * 12
-                qddes = [0.0] * 12
-                ff = [0.0] * 12
+                # tc_j = pd0_j + pd1_j lag - kp_j q_j - kd_j qd_j with pd0 = ff + kp q* + kd qd*,
+                # pd1 = kp qd* (fixed between control updates)
+                pd0 = [0.0] * 12
+                pd1 = [0.0] * 12
+                ZERO12 = [0.0] * 12  # read only
                 for i in range(nsteps):
                     st = getJS(r, J, physicsClientId=c)
                     q = [s[0] for s in st]
@@ -495,43 +532,24 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                     if i % upd_every == 0:
                         state = measure(i_global, q, qd, True)
                         a_, b_, c_ = ctrl.update(i * dt, state)
-                        qdes = a_.reshape(-1).tolist()
-                        qddes = b_.reshape(-1).tolist()
-                        ff = c_.reshape(-1).tolist()
-                        plan = ctrl.planned_stance().astype(float).tolist()
+                        qdes, qddes, ff = _flat12(a_), _flat12(b_), _flat12(c_)
+                        pd0 = [f + kp * x + kd * v for f, kp, x, kd, v
+                               in zip(ff, KPs, qdes, KDs, qddes, strict=True)]
+                        pd1 = [kp * v for kp, v in zip(KPs, qddes, strict=True)]
+                        plan = [1.0 if f else 0.0 for f in ctrl.planned_stance()]
                         upd_i = i
                         if i_global >= start_step:
                             observe(state, ctrl, seg_sum, dtu)
                     # targets between updates follow the planned joint speed (first-order hold)
                     lag = (i - upd_i) * dt
-                    tc = [ff[j] + KPs[j] * (qdes[j] + qddes[j] * lag - q[j])
-                          + KDs[j] * (qddes[j] - qd[j]) for j in R12]
-                    tau = [0.0] * 12
-                    sat = [0.0] * 12
-                    for j in R12:
-                        x = tc[j]
-                        wj = qd[j]
-                        aj = A[j]
-                        cj = CORNER[j]
-                        if -aj <= x <= aj and -cj <= wj <= cj:
-                            tau[j] = x
-                            continue
-                        hi = B[j] - C[j] * wj
-                        if hi > aj:
-                            hi = aj
-                        lo = -B[j] - C[j] * wj
-                        if lo < -aj:
-                            lo = -aj
-                        if hi < lo:
-                            hi = lo
-                        if x > hi:
-                            tau[j] = hi
-                            sat[j] = 1.0
-                        elif x < lo:
-                            tau[j] = lo
-                            sat[j] = 1.0
-                        else:
-                            tau[j] = x
+                    tc = [a + b * lag - kp * x - kd * v for a, b, kp, kd, x, v
+                          in zip(pd0, pd1, KPs, KDs, q, qd, strict=True)]
+                    if (max(tc) <= A_MIN and min(tc) >= -A_MIN and max(qd) <= CORNER_MIN
+                            and min(qd) >= -CORNER_MIN):
+                        tau = tc
+                        sat = ZERO12
+                    else:
+                        tau, sat = clamp(tc, qd)
                     setJ(r, J, TQ, forces=tau, physicsClientId=c)
                     if disturb:
                         f_ext = disturbances(i_global, plan)

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -13,19 +12,93 @@ from sim.model import RobotModel
 from sim.statics import StanceStatics
 
 
-@dataclass
 class RobotState:
-    """Measured state at a control update (world frame = ground frame, z normal to ground)."""
+    """Measured state at a control update (world frame = ground frame, z normal to ground).
 
-    t_s: float
-    q: np.ndarray  # [4, 3]
-    qd: np.ndarray  # [4, 3]
-    base_position_m: np.ndarray  # [3] base frame origin
-    base_rotation: np.ndarray  # [3, 3] world from base
-    base_velocity_m_s: np.ndarray  # [3]
-    base_angular_velocity_rad_s: np.ndarray  # [3]
-    gravity_w: np.ndarray  # [3]
-    contact: np.ndarray  # [4] bool
+    Built from the plain numbers the engine returns: ``q``/``qd`` flat (12, leg-major),
+    ``base_position_m`` (3, base frame origin), ``base_rotation`` (3 rows of 3, world from
+    base), velocities (3 each), ``gravity_w`` (3) and ``contact`` (4 flags). Those lists are
+    kept as ``*_list`` attributes for controllers that work on floats; the array attributes
+    (``q[4, 3]``, ``base_rotation[3, 3]``, ...) are made on first use, so a control update
+    pays for numpy only where a controller uses it.
+    """
+
+    __slots__ = (
+        "_arrays",
+        "base_angular_velocity_list",
+        "base_position_list",
+        "base_rotation_list",
+        "base_velocity_list",
+        "contact_list",
+        "gravity_list",
+        "q_list",
+        "qd_list",
+        "t_s",
+    )
+
+    def __init__(self, t_s: float, q: Any, qd: Any, base_position_m: Any, base_rotation: Any,
+                 base_velocity_m_s: Any, base_angular_velocity_rad_s: Any, gravity_w: Any,
+                 contact: Any):
+        self.t_s = float(t_s)
+        self.q_list = _floats(q)
+        self.qd_list = _floats(qd)
+        self.base_position_list = _floats(base_position_m)
+        self.base_rotation_list = [_floats(row) for row in base_rotation]
+        self.base_velocity_list = _floats(base_velocity_m_s)
+        self.base_angular_velocity_list = _floats(base_angular_velocity_rad_s)
+        self.gravity_list = _floats(gravity_w)
+        self.contact_list = [bool(c) for c in (contact.tolist() if isinstance(contact, np.ndarray)
+                                               else contact)]
+        self._arrays: dict[str, np.ndarray] = {}
+
+    def _array(self, key: str, make: Any) -> np.ndarray:
+        a = self._arrays.get(key)
+        if a is None:
+            a = self._arrays[key] = make()
+        return a
+
+    @property
+    def q(self) -> np.ndarray:  # [4, 3]
+        return self._array("q", lambda: np.array(self.q_list).reshape(4, 3))
+
+    @property
+    def qd(self) -> np.ndarray:  # [4, 3]
+        return self._array("qd", lambda: np.array(self.qd_list).reshape(4, 3))
+
+    @property
+    def base_position_m(self) -> np.ndarray:  # [3] base frame origin
+        return self._array("p", lambda: np.array(self.base_position_list))
+
+    @property
+    def base_rotation(self) -> np.ndarray:  # [3, 3] world from base
+        return self._array("R", lambda: np.array(self.base_rotation_list))
+
+    @property
+    def base_velocity_m_s(self) -> np.ndarray:  # [3]
+        return self._array("v", lambda: np.array(self.base_velocity_list))
+
+    @property
+    def base_angular_velocity_rad_s(self) -> np.ndarray:  # [3]
+        return self._array("w", lambda: np.array(self.base_angular_velocity_list))
+
+    @property
+    def gravity_w(self) -> np.ndarray:  # [3]
+        return self._array("g", lambda: np.array(self.gravity_list))
+
+    @property
+    def contact(self) -> np.ndarray:  # [4] bool
+        return self._array("c", lambda: np.array(self.contact_list, bool))
+
+
+def _floats(x: Any) -> list[float]:
+    """Flat list of floats from a list, tuple or array of any shape."""
+    if type(x) is list and x and type(x[0]) is float:
+        return x  # already flat floats (the runner's case): no copy
+    if isinstance(x, np.ndarray):
+        return [float(v) for v in x.reshape(-1).tolist()]
+    if x and isinstance(x[0], list | tuple | np.ndarray):
+        return [float(v) for row in x for v in row]
+    return [float(v) for v in x]
 
 
 def nominal_feet_b(model: RobotModel, hip_height_m: float | None = None) -> np.ndarray:
@@ -89,13 +162,14 @@ class SegmentController:
     def start(self, state: RobotState) -> None:
         """Called once at the start of the segment with the measured state."""
 
-    def update(self, t_seg: float, state: RobotState) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Return ``(q_des[4,3], qd_des[4,3], tau_ff[4,3])``."""
+    def update(self, t_seg: float, state: RobotState) -> tuple[Any, Any, Any]:
+        """Return ``(q_des, qd_des, tau_ff)``: each a ``[4, 3]`` array or a flat list of 12
+        floats (leg-major, the joint-name order)."""
         raise NotImplementedError
 
-    def planned_stance(self) -> np.ndarray:
-        """Feet the plan expects on the ground now ``[4]`` (bool)."""
-        return np.ones(4, bool)
+    def planned_stance(self) -> Any:
+        """Feet the plan expects on the ground now: 4 flags (array or list of bools)."""
+        return [True, True, True, True]
 
     def commanded_velocity(self) -> tuple[float, float, float]:
         """Commanded forward speed (m/s), lateral speed (m/s) and yaw rate (rad/s) now."""

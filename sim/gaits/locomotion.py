@@ -32,8 +32,6 @@ from __future__ import annotations
 import math
 from typing import Any
 
-import numpy as np
-
 from sim.gaits.base import (
     RobotState,
     SegmentController,
@@ -104,7 +102,7 @@ class GaitController(SegmentController):
         self.p = [list(r) for r in self.nominal]  # foot targets in H
         self.p_lo = [list(r) for r in self.nominal]
         self.swing = [False] * 4
-        self.stance_now = np.ones(4, bool)
+        self.stance_now = [True] * 4
         self.v_f = [0.0, 0.0]
         self.v0 = (0.0, 0.0)
         self.w0 = 0.0
@@ -132,23 +130,24 @@ class GaitController(SegmentController):
         self.v_shift = (0.0, 0.0)
         self.swing = [False] * 4
 
-    def planned_stance(self) -> np.ndarray:
+    def planned_stance(self) -> list[bool]:
         return self.stance_now
 
     def commanded_velocity(self) -> tuple[float, float, float]:
         return self.cmd
 
-    def update(self, t_seg: float, state: RobotState) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    def update(self, t_seg: float, state: RobotState) -> tuple[list[float], list[float],
+                                                               list[float]]:
         dt = t_seg - self.t_prev
         self.t_prev = t_seg
-        R = state.base_rotation.tolist()
+        R = state.base_rotation_list
         roll = math.atan2(R[2][1], R[2][2])
         pitch = math.asin(max(-1.0, min(1.0, -R[2][0])))
         yaw = math.atan2(R[1][0], R[0][0])
         cy, sy = math.cos(yaw), math.sin(yaw)
-        vw = state.base_velocity_m_s.tolist()
-        ww = state.base_angular_velocity_rad_s.tolist()
-        gw = state.gravity_w.tolist()
+        vw = state.base_velocity_list
+        ww = state.base_angular_velocity_list
+        gw = state.gravity_list
         # body-frame angular velocity and gravity: R^T x
         wbx = R[0][0] * ww[0] + R[1][0] * ww[1] + R[2][0] * ww[2]
         wby = R[0][1] * ww[0] + R[1][1] * ww[1] + R[2][1] * ww[2]
@@ -178,7 +177,7 @@ class GaitController(SegmentController):
 
         T, beta = self.T, self.beta
         phi = phases(t_seg, T, beta, self.lift)
-        h_err = (self.h_stance - self.hip_z) - float(state.base_position_m[2])
+        h_err = (self.h_stance - self.hip_z) - state.base_position_list[2]
         dz = -self.k_height * h_err
         t_sw = (1.0 - beta) * T
         t_st = beta * T
@@ -212,7 +211,7 @@ class GaitController(SegmentController):
                                   v_end, self.h_step)
             p[k] = ps
             vel[k] = [dps[0] / t_sw, dps[1] / t_sw, dps[2] / t_sw]
-        self.stance_now = np.array(stance)
+        self.stance_now = stance
         sx = sy_ = 0.0
         if self.shift_gain > 0:
             w = load_weights(phi, beta, self.shift_ramp)
@@ -228,21 +227,30 @@ class GaitController(SegmentController):
         # attitude feedback: H -> base through the feedback tilt a (rows: Ra^T p)
         a_r = -self.k_att * roll - self.k_att_rate * wbx
         a_p = self.pitch_cmd - self.k_att * (pitch - self.pitch_cmd) - self.k_att_rate * wby
-        Ra = rot_rp(a_r, a_p).tolist()
-        p_b = [[Ra[0][i] * (pk[0] - sx) + Ra[1][i] * (pk[1] - sy_) + Ra[2][i] * pk[2]
-                for i in range(3)] for pk in p]
-        v_b = [[Ra[0][i] * vk[0] + Ra[1][i] * vk[1] + Ra[2][i] * vk[2] for i in range(3)]
-               for vk in vel]
+        # Ra = Ry(a_p) Rx(a_r) (sim.gaits.base.rot_rp) in floats
+        cr, sr, cp, sp = math.cos(a_r), math.sin(a_r), math.cos(a_p), math.sin(a_p)
+        Ra = [[cp, sp * sr, sp * cr], [0.0, cr, -sr], [-sp, cp * sr, cp * cr]]
         # static load over the stance feet (contacts relative to the COM, base frame)
         gn = math.sqrt(g_b[0] ** 2 + g_b[1] ** 2 + g_b[2] ** 2)
         up = [-g_b[0] / gn, -g_b[1] / gn, -g_b[2] / gn]
         rf, com = self.r_foot, self.com
-        cont = [[pb[i] - rf * up[i] - com[i] for i in range(3)] for pb in p_b]
+        # contact point = foot centre - r_foot up, relative to the COM
+        o0, o1, o2 = rf * up[0] + com[0], rf * up[1] + com[1], rf * up[2] + com[2]
+        (r00, r01, r02), (r10, r11, r12), (r20, r21, r22) = Ra
+        p_b, v_b, cont = [], [], []
+        for pk, vk in zip(p, vel, strict=True):
+            X, Y, Z = pk[0] - sx, pk[1] - sy_, pk[2]
+            bx = r00 * X + r10 * Y + r20 * Z
+            by = r01 * X + r11 * Y + r21 * Z
+            bz = r02 * X + r12 * Y + r22 * Z
+            p_b.append((bx, by, bz))
+            cont.append((bx - o0, by - o1, bz - o2))
+            X, Y, Z = vk
+            v_b.append((r00 * X + r10 * Y + r20 * Z, r01 * X + r11 * Y + r21 * Z,
+                        r02 * X + r12 * Y + r22 * Z))
         forces = distribute(cont, self.weight_n * gn / 9.80665, up,
                             load_weights(phi, beta, self.load_ramp))
-        q, qd, tau = self.solver.solve(p_b, v_b, g_b, forces)
-        return (np.array(q).reshape(4, 3), np.array(qd).reshape(4, 3),
-                np.array(tau).reshape(4, 3))
+        return self.solver.solve(p_b, v_b, g_b, forces)  # three flat lists of 12
 
 
 class TrotController(GaitController):
