@@ -26,6 +26,9 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /histograms/<joint>/speed_edges_rad_s   [speed_bin + 1]
     /summary/<joint>                        attributes: exact per-step statistics
 
+Sample ``i`` (time ``t_i``): joint and base state at the start of the engine step from ``t_i``
+to ``t_i + dt``; torques, contact forces and contact flags over that step.
+
 Histograms and summary describe the load at the reducer output: ``torque_nm`` for a rigid,
 lossless reducer, the reducer output torque (``gearbox_torque_nm``) when motor rotors or reducer
 losses are simulated (root attribute ``load_torque``, naming the series they follow).

@@ -412,24 +412,33 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         grav_l = eng.gravity_w.tolist()
 
         def measure(i_g: int, q: list[float] | None = None, qd: list[float] | None = None,
-                    contacts: bool = True) -> RobotState:
-            """The measured state the controllers see (plain floats; see RobotState)."""
+                    base: tuple[Any, Any, Any, Any] | None = None,
+                    contact: list[float] | None = None) -> RobotState:
+            """The measured state the controllers see (plain floats; see RobotState).
+
+            ``q``, ``qd``, ``base`` (COM position, orientation, velocity, angular velocity)
+            and ``contact`` (flags of the last step) are read from the engine unless given.
+            """
             if q is None or qd is None:
                 st = getJS(r, J, physicsClientId=c)
                 q = [s[0] for s in st]
                 qd = [s[1] for s in st]
-            pos, (x, y, z, w_) = getBase(r, physicsClientId=c)
+            if base is None:
+                base = (*getBase(r, physicsClientId=c), *getVel(r, physicsClientId=c))
+            pos, (x, y, z, w_), v, om = base
             # rotation matrix of the unit quaternion (x, y, z, w), world from base
             R = [[1.0 - 2.0 * (y * y + z * z), 2.0 * (x * y - z * w_), 2.0 * (x * z + y * w_)],
                  [2.0 * (x * y + z * w_), 1.0 - 2.0 * (x * x + z * z), 2.0 * (y * z - x * w_)],
                  [2.0 * (x * z - y * w_), 2.0 * (y * z + x * w_), 1.0 - 2.0 * (x * x + y * y)]]
             cx, cy, cz = com_l  # base frame origin = COM - R c
             origin = [pos[i] - (R[i][0] * cx + R[i][1] * cy + R[i][2] * cz) for i in range(3)]
-            v, om = getVel(r, physicsClientId=c)
-            contact = eng.foot_forces()[1] if contacts else [1.0] * 4
+            if contact is None:
+                contact = eng.foot_forces()[1]
             return RobotState(i_g * dt, q, qd, origin, R, list(v), list(om), grav_l, contact)
 
         seg_sums: list[RunSummary] = []
+        last_contact: list[float] = []
+        contact_at = -1  # step index at which last_contact describes the contacts
         seg_sum = RunSummary()
         events: dict[str, list[list[float]]] = {"touchdown": [[], [], [], []],
                                                 "liftoff": [[], [], [], []]}
@@ -529,8 +538,16 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                     st = getJS(r, J, physicsClientId=c)
                     q = [s[0] for s in st]
                     qd = [s[1] for s in st]
-                    if i % upd_every == 0:
-                        state = measure(i_global, q, qd, True)
+                    sample = (series and i_global >= start_step
+                              and (i_global - start_step) % dec == 0)
+                    upd = i % upd_every == 0
+                    if sample or upd:  # the base state at the start of this step
+                        pos, orn = getBase(r, physicsClientId=c)
+                        v, om = getVel(r, physicsClientId=c)
+                    if upd:
+                        # contact flags of the last step, kept if that step was sampled
+                        state = measure(i_global, q, qd, (pos, orn, v, om),
+                                        last_contact if contact_at == i_global else None)
                         a_, b_, c_ = ctrl.update(i * dt, state)
                         qdes, qddes, ff = _flat12(a_), _flat12(b_), _flat12(c_)
                         pd0 = [f + kp * x + kd * v for f, kp, x, kd, v
@@ -563,11 +580,12 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                         else:
                             hb[n_hb] = tau + qd + sat + tau
                         n_hb += 1
-                        if series and (i_global - start_step) % dec == 0:
-                            # base COM and orientation now; frame origin computed at flush
-                            pos, orn = getBase(r, physicsClientId=c)
-                            v, om = getVel(r, physicsClientId=c)
+                        if sample:
+                            # joint and base state at the start of the step (base COM; the
+                            # frame origin is computed at flush), torques and contact forces
+                            # over the step
                             fv, contact = eng.foot_forces()
+                            last_contact, contact_at = contact, i_global + 1
                             sb[n_sb] = [i_global * dt, *q, *qd, *tau, *tc, *sat, *pos, *orn,
                                         *v, *om, *fv, *contact, *plan]
                             if pushes:

@@ -47,19 +47,19 @@ def test_landing_impulse_equals_momentum_change(tmp_path, mode):
         assert int(rec.attrs["decimation"]) == 1
         fz = sum(rec.read(f"feet/{leg}/force_n")[:, 2] for leg in LEGS)
         contact = sum(rec.read(f"feet/{leg}/contact") for leg in LEGS)
-        base = rec.read("base/position_m")  # after step i
+        base = rec.read("base/position_m")  # sample i: state at the start of step i
         quat = rec.read("base/orientation_xyzw")
-        q = np.stack([rec.read(f"joints/{j}/angle_rad") for j in rec.joint_names], 1)  # before
-    n = len(fz)
-    # whole-robot COM after step i: base pose of sample i, joint angles of sample i + 1
-    com = np.empty((n - 1, 3))
-    for i in range(n - 1):
+        q = np.stack([rec.read(f"joints/{j}/angle_rad") for j in rec.joint_names], 1)
+    n = len(fz)  # foot forces of sample i: over step i
+    # whole-robot COM at the start of step i (after step i - 1)
+    com = np.empty((n, 3))
+    for i in range(n):
         x, y, z, w = quat[i]
         R = np.array([[1 - 2 * (y * y + z * z), 2 * (x * y - z * w), 2 * (x * z + y * w)],
                       [2 * (x * y + z * w), 1 - 2 * (x * x + z * z), 2 * (y * z - x * w)],
                       [2 * (x * z - y * w), 2 * (y * z + x * w), 1 - 2 * (x * x + y * y)]])
-        com[i] = base[i] + R @ statics.com_b(q[i + 1].reshape(4, 3))
-    v = np.diff(com[:, 2]) / dt  # COM vertical speed after step i + 1
+        com[i] = base[i] + R @ statics.com_b(q[i].reshape(4, 3))
+    v = np.diff(com[1:, 2]) / dt  # v[i]: COM vertical speed after step i + 1
     first = int(np.argmax(contact > 0))
     s, e = first - 10, first + 120  # from just before touchdown to after the impact
     dp = m * (v[e - 1] - v[s - 1])  # momentum after step e minus after step s
