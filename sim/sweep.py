@@ -1052,7 +1052,13 @@ def _mp_context() -> Any:
     import multiprocessing as mp
 
     methods = mp.get_all_start_methods()
-    return mp.get_context("forkserver" if "forkserver" in methods else "spawn")
+    if "forkserver" not in methods:
+        return mp.get_context("spawn")
+    ctx = mp.get_context("forkserver")
+    # the fork server imports the engine and the case code once; workers forked from it start
+    # at once and together, so the first cases do not queue behind one worker's imports
+    ctx.set_forkserver_preload(["sim.sweep", "sim.runner"])
+    return ctx
 
 
 def _execute_local(specs: list[dict[str, Any]], out_dir: Path, workers: int,
