@@ -50,6 +50,15 @@ ACTUATOR_SPEC: dict[str, Any] = {
     "efficiency_back": Field(float, "reducer efficiency when the load drives the motor "
                              "(motor-side power / output power)", default=1.0, min=0.05,
                              max=1.0),
+    # reducer backlash and mesh compliance in the dynamics (optional; sim/drive.py): the
+    # defaults keep a rigid mesh without lash
+    "backlash_rad": Field(float, "total lost motion of the reducer at the output (the gap "
+                          "width)", default=0.0, min=0.0),
+    "mesh_stiffness_nm_rad": Field(float, "torsional stiffness of the reducer at the output "
+                                   "once the lash is closed; 0 = rigid (needed > 0 for "
+                                   "backlash)", default=0.0, min=0.0),
+    "mesh_damping_nm_s_rad": Field(float, "damping of the closed mesh at the output",
+                                   default=0.0, min=0.0),
 }
 
 
@@ -119,6 +128,14 @@ class Actuator:
     friction_viscous_nm_s_rad: float = 0.0
     efficiency_forward: float = 1.0
     efficiency_back: float = 1.0
+    backlash_rad: float = 0.0
+    mesh_stiffness_nm_rad: float = 0.0
+    mesh_damping_nm_s_rad: float = 0.0
+
+    @property
+    def compliant_mesh(self) -> bool:
+        """True when the reducer mesh is an elastic contact (with or without lash)."""
+        return self.mesh_stiffness_nm_rad > 0.0
 
     @property
     def reflected_inertia_kg_m2(self) -> float:
@@ -256,7 +273,29 @@ def _actuators(data: dict[str, Any], file: str) -> dict[str, Actuator]:
             over = validate(table[j], partial, file, f"actuator.{j}.")
             vals.update({k: v for k, v in over.items() if v is not None})
         out[j] = Actuator(**vals)
+        _check_mesh(out[j], j, table, file)
     return out
+
+
+def actuator_key(table: dict[str, Any], joint: str, key: str) -> str:
+    """Dotted key under which ``joint``'s actuator value ``key`` is set in ``table``
+    (the model's ``actuator`` table): the per-joint table if it gives the key, else the kind."""
+    if isinstance(table.get(joint), dict) and key in table[joint]:
+        return f"actuator.{joint}.{key}"
+    return f"actuator.{joint.split('_')[1]}.{key}"
+
+
+def _check_mesh(a: Actuator, joint: str, table: dict[str, Any], file: str) -> None:
+    """Backlash needs an elastic mesh to close it, and the mesh needs a motor-side inertia."""
+    if a.backlash_rad > 0 and not a.compliant_mesh:
+        raise InputError(file, actuator_key(table, joint, "mesh_stiffness_nm_rad"),
+                         f"a mesh stiffness > 0 for {joint}, whose backlash_rad is "
+                         f"{a.backlash_rad:g} (the lash is closed by an elastic mesh; "
+                         "see docs/dynamics.md)", a.mesh_stiffness_nm_rad)
+    if a.compliant_mesh and a.rotor_inertia_kg_m2 <= 0:
+        raise InputError(file, actuator_key(table, joint, "rotor_inertia_kg_m2"),
+                         f"a rotor inertia > 0 for {joint}, whose reducer mesh is elastic "
+                         "(the motor side of the mesh needs an inertia)", a.rotor_inertia_kg_m2)
 
 
 def model_from_data(data: dict[str, Any], file: str) -> RobotModel:

@@ -10,6 +10,8 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /joints/<joint>/saturated               [sample]            1 where the clamp was active
     /joints/<joint>/gearbox_torque_nm       [sample]            N m, reducer output on the joint
                                             (present when rotors or losses are simulated)
+    /joints/<joint>/motor_angle_rad         [sample]            rad, rotor angle / ratio
+                                            (present when the joint's mesh is simulated)
     /feet/<leg>/force_n                     [sample, 3]         N, ground on foot, world frame
     /feet/<leg>/contact                     [sample]            1 when the foot touches ground
     /base/position_m                        [sample, 3]         m, base link frame origin
@@ -61,7 +63,8 @@ AXIS_CONVENTION = "sample-major: series are [sample] or [sample, component]"
 
 UNITS = {
     "time_s": "s", "angle_rad": "rad", "speed_rad_s": "rad/s", "torque_nm": "N m",
-    "torque_command_nm": "N m", "gearbox_torque_nm": "N m", "force_n": "N",
+    "torque_command_nm": "N m", "gearbox_torque_nm": "N m", "motor_angle_rad": "rad",
+    "force_n": "N",
     "external_force_n": "N", "position_m": "m", "orientation_xyzw": "1",
     "velocity_m_s": "m/s", "angular_velocity_rad_s": "rad/s", "saturated": "1", "contact": "1",
     "torque_edges_nm": "N m", "speed_edges_rad_s": "rad/s", "revolutions": "rev",

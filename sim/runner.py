@@ -23,7 +23,7 @@ import numpy as np
 
 from sim import JOINT_NAMES, LEGS, __version__
 from sim.actuator import Envelope
-from sim.drive import DriveOptions, Drivetrain
+from sim.drive import DriveOptions, Drivetrain, mesh_joints
 from sim.errors import SimulationFailure
 from sim.gait import RobotState, SegmentController, make_controller
 from sim.record import RecordWriter
@@ -144,7 +144,8 @@ class Engine:
         pay = s["payload"]
         drive_opt = DriveOptions.from_table(s.get("drive"))
         self.urdf = build_urdf(scenario.model, pay["mass_kg"], pay["position_m"], pay["size_m"],
-                               rotors=drive_opt.rotor_inertia)
+                               rotors=drive_opt.rotor_inertia,
+                               motor_side=mesh_joints(scenario.model))
         with tempfile.TemporaryDirectory(prefix="gaitload-") as tmp:
             fn = os.path.join(tmp, "robot.urdf")
             with open(fn, "w") as fh:
@@ -337,7 +338,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     }
     r, c = eng.robot, eng.cid
     drv = eng.drive
-    drv_step, drv_rec = drv.per_step, drv.records
+    drv_step, drv_rec, drv_mesh = drv.per_step, drv.records, bool(drv.mesh)
     getJS = pb.getJointStates
     setJ = pb.setJointMotorControlArray
     step = pb.stepSimulation
@@ -567,15 +568,17 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                         sat = ZERO12
                     else:
                         tau, sat = clamp(tc, qd)
-                    setJ(r, J, TQ, forces=tau, physicsClientId=c)
+                    # at the joints: tau, or the mesh torque where backlash is simulated
+                    tj = drv.transmit(tau, q, qd) if drv_mesh else tau
+                    setJ(r, J, TQ, forces=tj, physicsClientId=c)
                     if disturb:
                         f_ext = disturbances(i_global, plan)
                     if drv_step:
-                        drv.before_step(tau, qd)  # efficiency losses follow the torque
+                        drv.before_step(tj, qd)  # efficiency losses follow the torque
                     step(physicsClientId=c)
                     if i_global >= start_step:
                         if drv_rec:  # load at the reducer output differs from N tau_m
-                            gb = drv.gearbox_torque(tau, qd)
+                            gb = drv.gearbox_torque(tj, qd)
                             hb[n_hb] = gb + qd + sat + tau
                         else:
                             hb[n_hb] = tau + qd + sat + tau

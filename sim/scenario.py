@@ -168,6 +168,9 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
         raise InputError(str(path), "record.start_s", "a start before the end of the scenario")
     if values["control"]["update_period_s"] < values["time_step_s"] * 0.999:
         raise InputError(str(path), "control.update_period_s", "at least one time step")
+    from sim.drive import DriveOptions, check_mesh  # the mesh must suit the time step
+
+    check_mesh(model, DriveOptions.from_table(values["drive"]), values["time_step_s"], str(path))
     return Scenario(values, str(path), model, tuple(segments))
 
 

@@ -78,9 +78,10 @@ FINAL_STATUSES = ("completed", "fell", "diverged", "bad_input", "infeasible")
 FAILED_STATUSES = ("fell", "diverged", "bad_input", "infeasible", "error")
 CAUTION = ("Results are estimates from a rigid-body simulation of an idealised robot: "
            "manufacturer ratings, local codes and licensed engineering practice take precedence.")
-NOT_MODELLED = ("Not modelled: reflected rotor inertia in the dynamics, joint friction and "
-                "backlash, structural compliance, sensor noise and delay, motor heating in the "
-                "run itself (see the check command).")
+NOT_MODELLED = ("Not modelled unless the scenario's [drive] table or the model's actuator "
+                "tables turn them on: rotor inertia, reducer friction, backlash and mesh "
+                "compliance. Not modelled: structural compliance of the links, sensor noise and "
+                "delay, motor heating in the run itself (see the check command).")
 
 SWEEP_SPEC: dict[str, Any] = {
     "description": Field(str, "free text", default=""),

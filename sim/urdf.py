@@ -21,11 +21,15 @@ Motor rotors (``rotors=``, see :mod:`sim.drive` and ``docs/dynamics.md``):
   joint ``<joint>_rotor_spin`` coaxial with the actuated joint, mass ``ROTOR_MASS_KG`` on the
   axis, inertia J_r about the axis and J_r / 2 about the two others (a thin disc). The runner
   couples each rotor to its joint with a gear constraint so that qd_rotor = N qd_joint.
+
+Joints listed in ``motor_side=`` (those with an elastic reducer mesh, possibly with backlash)
+get no rotor in the URDF whatever ``rotors`` says: :mod:`sim.drive` simulates their rotor as
+the motor side of the mesh, outside the engine.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Collection, Sequence
 
 import numpy as np
 
@@ -81,14 +85,17 @@ def payload_mass_props(mass_kg: float, position_m: Sequence[float],
 
 def build_urdf(model: RobotModel, payload_kg: float = 0.0,
                payload_position_m: Sequence[float] = (0.0, 0.0, 0.0),
-               payload_size_m: Sequence[float] = (0.2, 0.15, 0.05), rotors: str = "off") -> str:
+               payload_size_m: Sequence[float] = (0.2, 0.15, 0.05), rotors: str = "off",
+               motor_side: Collection[str] = ()) -> str:
     """URDF text for ``model`` (with an optional payload box fixed to the base).
 
-    ``rotors`` is one of :data:`ROTORS` (see the module docstring).
+    ``rotors`` is one of :data:`ROTORS`; joints in ``motor_side`` get no rotor (see the
+    module docstring).
     """
     if rotors not in ROTORS:
         raise ValueError(f"rotors must be one of {ROTORS}, got {rotors!r}")
-    arm = {j: (model.actuators[j].reflected_inertia_kg_m2 if rotors == "approximate" else 0.0)
+    arm = {j: (model.actuators[j].reflected_inertia_kg_m2
+               if rotors == "approximate" and j not in motor_side else 0.0)
            for j in model.actuators}
     rotor_rows: list[str] = []
     lg = model.leg
@@ -116,6 +123,8 @@ def build_urdf(model: RobotModel, payload_kg: float = 0.0,
                 "hip": (f"{leg}_abad_link", [0.0, side * lg["abad_offset_m"], 0.0]),
                 "knee": (f"{leg}_thigh", [0.0, 0.0, -l1])}
             for kind, (parent, xyz) in parents.items():
+                if f"{leg}_{kind}" in motor_side:
+                    continue
                 rotor_rows.append(_rotor(f"{leg}_{kind}", parent, xyz, _AXES[kind][1],
                                          acts[kind].rotor_inertia_kg_m2, _AXES[kind][0]))
         out.append(f'<link name="{leg}_abad_link">{_inertial(abad_mp)}</link>')
