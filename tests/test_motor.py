@@ -8,7 +8,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
 from sim import JOINT_NAMES
@@ -175,6 +175,7 @@ def test_operating_points_direction_of_power():
 @settings(max_examples=50, deadline=None)
 @given(tau=st.floats(-100, 100), w=st.floats(-30, 30), n=st.floats(1.0, 100.0),
        ef=st.floats(0.3, 1.0), eb=st.floats(0.3, 1.0))
+@example(tau=1.0, w=-5e-324, n=1.0, ef=1.0, eb=0.5)  # tau w underflows to -0.0
 def test_operating_point_round_trip(tau: float, w: float, n: float, ef: float, eb: float):
     tm, _ = motor_operating_points(np.array([tau]), np.array([w]), n, ef, eb)
     back = joint_torque_from_motor(tm, np.array([w]), n, ef, eb)

@@ -274,7 +274,7 @@ def motor_operating_points(joint_torque_nm: np.ndarray, joint_speed_rad_s: np.nd
     """
     tau = np.asarray(joint_torque_nm, float)
     w = np.asarray(joint_speed_rad_s, float)
-    forward = tau * w >= 0.0
+    forward = np.sign(tau) * np.sign(w) >= 0.0  # signs, not tau w: that may underflow
     tm = np.where(forward, tau / (ratio * efficiency_forward), tau * efficiency_back / ratio)
     return tm, w * ratio
 
@@ -284,7 +284,7 @@ def joint_torque_from_motor(motor_torque_nm: np.ndarray, joint_speed_rad_s: np.n
                             ) -> np.ndarray:
     """Inverse of :func:`motor_operating_points` for the torque, N m at the joint."""
     tm = np.asarray(motor_torque_nm, float)
-    forward = tm * np.asarray(joint_speed_rad_s, float) >= 0.0
+    forward = np.sign(tm) * np.sign(np.asarray(joint_speed_rad_s, float)) >= 0.0
     return np.where(forward, tm * ratio * efficiency_forward, tm * ratio / efficiency_back)
 
 
