@@ -279,6 +279,7 @@ class RunRecord:
 
     def __init__(self, path: str | Path):
         self.path = Path(path)
+        self._attrs: dict[str, Any] | None = None
         if not self.path.is_file():
             raise RecordError(str(self.path), None, "an existing run record (no such file)")
         try:
@@ -298,6 +299,12 @@ class RunRecord:
     # metadata
     @property
     def attrs(self) -> dict[str, Any]:
+        """Root attributes as plain Python values (read once: the file is open read-only)."""
+        if self._attrs is None:
+            self._attrs = self._read_attrs()
+        return dict(self._attrs)
+
+    def _read_attrs(self) -> dict[str, Any]:
         out: dict[str, Any] = {}
         for k, v in self._f.attrs.items():
             if isinstance(v, bytes):
@@ -315,7 +322,9 @@ class RunRecord:
 
     @property
     def joint_names(self) -> list[str]:
-        return list(self.attrs["joint_names"])
+        if self._attrs is None:
+            self._attrs = self._read_attrs()
+        return list(self._attrs["joint_names"])
 
     @property
     def n_samples(self) -> int:
