@@ -66,6 +66,11 @@ UNITS = {
 }
 
 _CHUNK_ROWS = 4096
+# metadata cache of a record opened for reading, in bytes of cache entries (mostly the chunk
+# index nodes): fixed and small. HDF5's default cache grows with the chunks touched (up to
+# 32 MiB of entries, several times that in memory), so a long chunked read grew with the
+# record's length; a sequential read needs only the current index nodes of each dataset.
+_READ_METADATA_CACHE_BYTES = 256 * 1024
 
 
 def _unit_for(name: str) -> str:
@@ -260,6 +265,18 @@ class JointSummary:
     duration_s: float
 
 
+def _fix_metadata_cache(f: h5py.File, size: int) -> None:
+    """Give ``f`` a metadata cache of ``size`` bytes that does not grow (adaptive increase off)."""
+    c = f.id.get_mdc_config()
+    c.set_initial_size = True
+    c.initial_size = size
+    c.max_size = size
+    c.min_size = min(c.min_size, size)
+    c.incr_mode = 0  # H5C_incr__off
+    c.flash_incr_mode = 0  # H5C_flash_incr__off
+    f.id.set_mdc_config(c)
+
+
 class RunRecord:
     """Read access to a record. Use :func:`open_record`; arrays are read on demand."""
 
@@ -271,6 +288,7 @@ class RunRecord:
             self._f = h5py.File(self.path, "r")
         except OSError:
             raise RecordError(str(self.path), None, "an HDF5 run record written by gaitload") from None
+        _fix_metadata_cache(self._f, _READ_METADATA_CACHE_BYTES)
         ver = self._f.attrs.get("format_version")
         if ver is None:
             self._f.close()
