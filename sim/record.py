@@ -360,15 +360,32 @@ class RunRecord:
         self.check_joint(joint)
         return self.read(f"joints/{joint}/{quantity}")
 
-    def iter_chunks(self, names: Sequence[str], rows: int = 262144
+    def iter_chunks(self, names: Sequence[str], rows: int = 262144, reuse: bool = False
                     ) -> Iterator[tuple[int, list[np.ndarray]]]:
-        """Yield ``(start_row, [array per name])`` over the sample axis, ``rows`` at a time."""
+        """Yield ``(start_row, [array per name])`` over the sample axis, ``rows`` at a time.
+
+        With ``reuse`` the arrays are views of buffers read into again at the next step (valid
+        until then): memory then holds one chunk, not the one being read plus the previous.
+        """
         n = self.n_samples
         for name in names:
             if name not in self._f:
                 raise RecordError(str(self.path), name, "this dataset in the record (missing)")
+        if not reuse:
+            for start in range(0, n, rows):
+                yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
+            return
+        bufs: list[np.ndarray] = []
         for start in range(0, n, rows):
-            yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
+            m = min(rows, n - start)
+            out = []
+            for k, nm in enumerate(names):
+                ds = self._f[nm]
+                if k == len(bufs):
+                    bufs.append(np.empty((min(rows, n), *ds.shape[1:]), dtype=ds.dtype))
+                ds.read_direct(bufs[k], np.s_[start:start + m], np.s_[0:m])
+                out.append(bufs[k][:m])
+            yield start, out
 
     def histogram(self, joint: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """``(time_s, revolutions, torque_edges_nm, speed_edges_rad_s)``.

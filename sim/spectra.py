@@ -490,7 +490,7 @@ def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str
         names += [_load_series(rec, j), f"joints/{j}/speed_rad_s"]
     leg_list = sorted(leg for leg, ok in leg_ok.items() if ok)
     names += [f"feet/{leg}/contact" for leg in leg_list]
-    for _, arrays in rec.iter_chunks(names, rows):
+    for _, arrays in rec.iter_chunks(names, rows, reuse=True):
         contact = {leg: arrays[2 * len(joints) + k] for k, leg in enumerate(leg_list)}
         for k, j in enumerate(joints):
             accs[j].feed(np.asarray(arrays[2 * k], float), np.asarray(arrays[2 * k + 1], float),
@@ -514,7 +514,8 @@ def cycle_matrices(rec: RunRecord, edges: Mapping[str, tuple[np.ndarray, np.ndar
         raise RecordError(str(rec.path), "joints", "time series in the record: " + reason)
     streams = {j: ReversalStream(keep=False) for j in joints}
     tallies = {j: CycleTally(edges=edges[j]) for j in joints}
-    for _, arrays in rec.iter_chunks([_load_series(rec, j) for j in joints], rows):
+    for _, arrays in rec.iter_chunks([_load_series(rec, j) for j in joints], rows,
+                                     reuse=True):
         for j, a in zip(joints, arrays, strict=True):
             tallies[j].add(streams[j].feed(np.asarray(a, float)))
     out = {}
