@@ -8,6 +8,7 @@ command runs, so ``gaitload loads`` never imports the physics engine.
 from __future__ import annotations
 
 import argparse
+import ctypes
 import importlib
 import sys
 from collections.abc import Sequence
@@ -42,9 +43,38 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+# glibc mallopt parameters (malloc.h) and the values set by keep_freed_memory
+_M_TRIM_THRESHOLD, _M_MMAP_THRESHOLD = -1, -3
+_MMAP_THRESHOLD_BYTES = 4 << 20
+_TRIM_THRESHOLD_BYTES = 64 << 20
+
+
+def keep_freed_memory() -> bool:
+    """Let glibc's malloc keep some freed memory for reuse; True if it was set.
+
+    Post-processing works chunk by chunk and allocates and frees arrays of a few MiB per
+    chunk. With glibc's default, adaptive thresholds such arrays are often handed back to the
+    system when freed and faulted in (and zeroed) again at the next chunk: on a 1 h, 1 kHz,
+    12-joint record ``gaitload loads`` took 0.85-1.4 M minor page faults and up to 60 % more
+    time. Arrays below 4 MiB now come from the heap, and up to 64 MiB of free heap is kept
+    for reuse; peak memory stays the same (it is set by the chunk size). Process-wide, so it
+    is called by :func:`main`, not by the library; does nothing where libc is not glibc.
+    """
+    if not sys.platform.startswith("linux"):
+        return False
+    try:
+        mallopt = ctypes.CDLL(None).mallopt
+    except (OSError, AttributeError):
+        return False
+    mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
+    return bool(mallopt(_M_MMAP_THRESHOLD, _MMAP_THRESHOLD_BYTES)
+                and mallopt(_M_TRIM_THRESHOLD, _TRIM_THRESHOLD_BYTES))
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run gaitload with ``argv`` (without the program name); return the exit code."""
     argv = list(sys.argv[1:] if argv is None else argv)
+    keep_freed_memory()
     parser = build_parser()
     # first pass: find the command, then let its module add its own arguments
     known, _ = parser.parse_known_args(argv)

@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 
 from sim.atomic import save_figure_atomic
-from sim.rainflow import Cycles
+from sim.rainflow import CycleMatrix
 from sim.spectra import JointSpectrum, load_duration
 
 
@@ -76,23 +76,13 @@ def plot_load_duration(spec: JointSpectrum, path: str | Path, title: str = "") -
     return _save(fig, path)
 
 
-def rainflow_edges(cycles: Cycles, bins: int = 20) -> tuple[np.ndarray, np.ndarray]:
-    """Range and mean edges covering all cycles, ``bins`` bins each."""
-    rmax = float(cycles.range.max()) if cycles.range.size else 1.0
-    lo = float(cycles.mean.min()) if cycles.mean.size else -1.0
-    hi = float(cycles.mean.max()) if cycles.mean.size else 1.0
-    if hi <= lo:
-        lo, hi = lo - 0.5, hi + 0.5
-    return np.linspace(0.0, rmax if rmax > 0 else 1.0, bins + 1), np.linspace(lo, hi, bins + 1)
-
-
-def plot_rainflow_matrix(cycles: Cycles, joint: str, path: str | Path, bins: int = 20) -> Path:
+def plot_rainflow_matrix(matrix: CycleMatrix, joint: str, path: str | Path) -> Path:
     """Rainflow cycle matrix (range x mean), log colour scale of cycles."""
     plt = _pyplot()
     from matplotlib.colors import LogNorm
 
-    re_, me = rainflow_edges(cycles, bins)
-    m = np.ma.masked_less_equal(cycles.matrix(re_, me), 0.0)
+    re_, me = matrix.range_edges, matrix.mean_edges
+    m = np.ma.masked_less_equal(matrix.counts, 0.0)
     fig, ax = plt.subplots(figsize=(6.4, 4.8))
     if m.count():
         mesh = ax.pcolormesh(me, re_, m, norm=LogNorm(vmin=float(m.min()), vmax=float(m.max())),

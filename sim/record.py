@@ -72,6 +72,11 @@ UNITS = {
 }
 
 _CHUNK_ROWS = 4096
+# metadata cache of a record opened for reading, in bytes of cache entries (mostly the chunk
+# index nodes): fixed and small. HDF5's default cache grows with the chunks touched (up to
+# 32 MiB of entries, several times that in memory), so a long chunked read grew with the
+# record's length; a sequential read needs only the current index nodes of each dataset.
+_READ_METADATA_CACHE_BYTES = 256 * 1024
 
 
 def _unit_for(name: str) -> str:
@@ -274,6 +279,18 @@ class JointSummary:
     duration_s: float
 
 
+def _fix_metadata_cache(f: h5py.File, size: int) -> None:
+    """Give ``f`` a metadata cache of ``size`` bytes that does not grow (adaptive increase off)."""
+    c = f.id.get_mdc_config()
+    c.set_initial_size = True
+    c.initial_size = size
+    c.max_size = size
+    c.min_size = min(c.min_size, size)
+    c.incr_mode = 0  # H5C_incr__off
+    c.flash_incr_mode = 0  # H5C_flash_incr__off
+    f.id.set_mdc_config(c)
+
+
 class RunRecord:
     """Read access to a record. Use :func:`open_record`; arrays are read on demand."""
 
@@ -286,6 +303,7 @@ class RunRecord:
             self._f = h5py.File(self.path, "r")
         except OSError:
             raise RecordError(str(self.path), None, "an HDF5 run record written by gaitload") from None
+        _fix_metadata_cache(self._f, _READ_METADATA_CACHE_BYTES)
         ver = self._f.attrs.get("format_version")
         if ver is None:
             self._f.close()
@@ -365,15 +383,32 @@ class RunRecord:
         self.check_joint(joint)
         return self.read(f"joints/{joint}/{quantity}")
 
-    def iter_chunks(self, names: Sequence[str], rows: int = 262144
+    def iter_chunks(self, names: Sequence[str], rows: int = 262144, reuse: bool = False
                     ) -> Iterator[tuple[int, list[np.ndarray]]]:
-        """Yield ``(start_row, [array per name])`` over the sample axis, ``rows`` at a time."""
+        """Yield ``(start_row, [array per name])`` over the sample axis, ``rows`` at a time.
+
+        With ``reuse`` the arrays are views of buffers read into again at the next step (valid
+        until then): memory then holds one chunk, not the one being read plus the previous.
+        """
         n = self.n_samples
         for name in names:
             if name not in self._f:
                 raise RecordError(str(self.path), name, "this dataset in the record (missing)")
+        if not reuse:
+            for start in range(0, n, rows):
+                yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
+            return
+        bufs: list[np.ndarray] = []
         for start in range(0, n, rows):
-            yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
+            m = min(rows, n - start)
+            out = []
+            for k, nm in enumerate(names):
+                ds = self._f[nm]
+                if k == len(bufs):
+                    bufs.append(np.empty((min(rows, n), *ds.shape[1:]), dtype=ds.dtype))
+                ds.read_direct(bufs[k], np.s_[start:start + m], np.s_[0:m])
+                out.append(bufs[k][:m])
+            yield start, out
 
     def histogram(self, joint: str) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         """``(time_s, revolutions, torque_edges_nm, speed_edges_rad_s)``.

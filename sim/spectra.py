@@ -10,6 +10,11 @@ Two sources feed the figures, and every result says which one it used:
   exceedance counts and time held at near-zero speed. Records written histogram-only have no
   series; these figures are then reported as unavailable, with the reason.
 
+Memory does not grow with the record: series are read ``rows`` samples at a time, and rainflow
+cycles are not kept but added up as they close (:class:`sim.rainflow.CycleTally`). The cycle
+matrix of the CSV and the plot spans the cycles found, so its edges are known only after a
+first pass; :func:`with_cycle_matrices` counts the matrix in a second pass over the torque.
+
 Post-processing works on records alone and never imports the physics engine.
 
 Library API for later checks: :func:`usage_spectra` (spectra of one day of use of a
@@ -20,6 +25,7 @@ the ``gaitload loads`` command reports.
 
 from __future__ import annotations
 
+import dataclasses
 import fnmatch
 import math
 from collections.abc import Iterable, Mapping, Sequence
@@ -30,7 +36,16 @@ import numpy as np
 
 from sim.errors import InputError, RecordError
 from sim.mix import UsageMix
-from sim.rainflow import BasquinCurve, Cycles, ReversalStream, concat_cycles, miner_damage
+from sim.rainflow import (
+    BasquinCurve,
+    CycleMatrix,
+    CycleTally,
+    CycleTotals,
+    ReversalStream,
+    combine_matrices,
+    combine_totals,
+    cycle_matrix_edges,
+)
 from sim.record import RunRecord, open_record
 
 TWO_PI = 2.0 * math.pi
@@ -39,6 +54,7 @@ DEFAULT_HOLD_SPEED_RAD_S = 0.1
 DEFAULT_HOLD_TORQUE_NM = 0.5
 DEFAULT_LEVEL_SHARES = (0.5, 0.75, 0.9)
 SERIES_CHUNK_ROWS = 262144
+CYCLE_MATRIX_BINS = 20  # range and mean bins of the cycle matrix (CSV, plot)
 
 
 @dataclass(frozen=True)
@@ -327,7 +343,9 @@ class SeriesFigures:
     hold_torque_sq_time_nm2_s: integral of torque^2 over that time (for its RMS).
     levels_nm, upcrossings, time_above_s: |torque| rising above each level (count) and time
         spent above it.
-    cycles: rainflow cycles of the joint torque (ASTM E1049-85 5.4.4, residue as halves).
+    rainflow: totals of the rainflow cycles of the joint torque (ASTM E1049-85 5.4.4, residue
+        as halves): counts, largest range, Miner sums on the S-N lines asked for and, after
+        :func:`with_cycle_matrices`, the range x mean matrix. The cycles are not kept.
     duration_s: time covered by the series (samples x sample period).
     """
 
@@ -340,7 +358,7 @@ class SeriesFigures:
     levels_nm: tuple[float, ...]
     upcrossings: tuple[float, ...]
     time_above_s: tuple[float, ...]
-    cycles: Cycles
+    rainflow: CycleTotals
 
 
 def _bin_index(edges: np.ndarray, x: np.ndarray) -> np.ndarray:
@@ -361,7 +379,7 @@ def _bin_index(edges: np.ndarray, x: np.ndarray) -> np.ndarray:
 class _JointAccumulator:
     def __init__(self, joint: str, te: np.ndarray, se: np.ndarray, dt: float,
                  levels: Sequence[float], hold_speed: float, hold_torque: float,
-                 with_contact: bool):
+                 with_contact: bool, curves: Sequence[BasquinCurve] = ()):
         self.joint, self.te, self.se, self.dt = joint, te, se, dt
         self.levels = np.asarray(levels, float)
         self.hold_speed, self.hold_torque = hold_speed, hold_torque
@@ -374,14 +392,15 @@ class _JointAccumulator:
         self.above = np.zeros(len(levels))
         self.prev_above = np.zeros(len(levels), dtype=bool)
         self.first = True
-        self.rf = ReversalStream()
+        self.rf = ReversalStream(keep=False)
+        self.tally = CycleTally(curves)
         self.n = 0
         self._extra = {"stance": (0.0, 0.0), "swing": (0.0, 0.0)}  # (int torque^2 dt, peak)
 
     def feed(self, tau: np.ndarray, w: np.ndarray, contact: np.ndarray | None) -> None:
         dt = self.dt
         self.n += tau.size
-        self.rf.feed(tau)
+        self.tally.add(self.rf.feed(tau))
         a = np.abs(tau)
         aw = np.abs(w)
         hold = (aw <= self.hold_speed) & (a >= self.hold_torque)
@@ -427,7 +446,11 @@ class _JointAccumulator:
                                            acc[3], t2)
         return SeriesFigures(self.joint, dur, specs["stance"], specs["swing"], self.hold_t,
                              self.hold_t2, tuple(self.levels.tolist()), tuple(self.up.tolist()),
-                             tuple(self.above.tolist()), self.rf.finish())
+                             tuple(self.above.tolist()), self._rainflow())
+
+    def _rainflow(self) -> CycleTotals:
+        self.tally.add(self.rf.finish())
+        return self.tally.totals()
 
 
 def series_unavailable_reason(rec: RunRecord, joints: Sequence[str]) -> str | None:
@@ -441,12 +464,15 @@ def series_unavailable_reason(rec: RunRecord, joints: Sequence[str]) -> str | No
 def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str, Sequence[float]],
                    hold_speed_rad_s: float = DEFAULT_HOLD_SPEED_RAD_S,
                    hold_torque_nm: float = DEFAULT_HOLD_TORQUE_NM,
-                   rows: int = SERIES_CHUNK_ROWS) -> dict[str, SeriesFigures]:
+                   rows: int = SERIES_CHUNK_ROWS,
+                   sn_curves: Sequence[BasquinCurve] = ()) -> dict[str, SeriesFigures]:
     """Series figures of ``joints`` of one record, read in chunks of ``rows`` samples.
 
     The stance/swing split of a joint uses the contact flag of its own leg (joint name
     prefix before ``_``); without ``/feet/<leg>/contact`` the split is None. Each sample
-    counts for ``sample_period_s``. Raises :class:`RecordError` if the record has no series.
+    counts for ``sample_period_s``. The rainflow totals hold the Miner sum on each of
+    ``sn_curves`` (and no cycle matrix). Raises :class:`RecordError` if the record has no
+    series.
     """
     reason = series_unavailable_reason(rec, joints)
     if reason:
@@ -458,19 +484,47 @@ def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str
     for j in joints:
         _, _, te, se = rec.histogram(j)
         accs[j] = _JointAccumulator(j, te, se, dt, levels_nm.get(j, ()), hold_speed_rad_s,
-                                    hold_torque_nm, leg_ok[legs[j]])
+                                    hold_torque_nm, leg_ok[legs[j]], sn_curves)
     names: list[str] = []
-    load = str(rec.attrs.get("load_torque", "torque_nm"))  # reducer output torque series
     for j in joints:
-        names += [f"joints/{j}/{load}", f"joints/{j}/speed_rad_s"]
+        names += [_load_series(rec, j), f"joints/{j}/speed_rad_s"]
     leg_list = sorted(leg for leg, ok in leg_ok.items() if ok)
     names += [f"feet/{leg}/contact" for leg in leg_list]
-    for _, arrays in rec.iter_chunks(names, rows):
+    for _, arrays in rec.iter_chunks(names, rows, reuse=True):
         contact = {leg: arrays[2 * len(joints) + k] for k, leg in enumerate(leg_list)}
         for k, j in enumerate(joints):
             accs[j].feed(np.asarray(arrays[2 * k], float), np.asarray(arrays[2 * k + 1], float),
                          contact.get(legs[j]))
     return {j: a.result() for j, a in accs.items()}
+
+
+def _load_series(rec: RunRecord, joint: str) -> str:
+    """Dataset of the load torque of ``joint`` (the reducer output torque series)."""
+    return f"joints/{joint}/{rec.attrs.get('load_torque', 'torque_nm')}"
+
+
+def cycle_matrices(rec: RunRecord, edges: Mapping[str, tuple[np.ndarray, np.ndarray]],
+                   rows: int = SERIES_CHUNK_ROWS) -> dict[str, CycleMatrix]:
+    """Rainflow cycle matrix of each joint in ``edges`` (joint -> (range edges, mean edges))
+    from the load torque series of ``rec``, read in chunks of ``rows`` samples; the same
+    cycles as :func:`series_figures`, binned as :meth:`sim.rainflow.Cycles.matrix`."""
+    joints = list(edges)
+    reason = series_unavailable_reason(rec, joints)
+    if reason:
+        raise RecordError(str(rec.path), "joints", "time series in the record: " + reason)
+    streams = {j: ReversalStream(keep=False) for j in joints}
+    tallies = {j: CycleTally(edges=edges[j]) for j in joints}
+    for _, arrays in rec.iter_chunks([_load_series(rec, j) for j in joints], rows,
+                                     reuse=True):
+        for j, a in zip(joints, arrays, strict=True):
+            tallies[j].add(streams[j].feed(np.asarray(a, float)))
+    out = {}
+    for j in joints:
+        tallies[j].add(streams[j].finish())
+        m = tallies[j].totals().matrix
+        assert m is not None
+        out[j] = m
+    return out
 
 
 # -- everything the loads command reports ---------------------------------------------------
@@ -482,6 +536,8 @@ class JointLoads:
     spectrum: the day's histogram spectrum. series: weighted series figures of the day, or
     None (``sources`` says why). damage_per_day: Miner damage of the day's rainflow cycles on
     the user's S-N line (None without a line or without series).
+    cycle_matrix: the day's rainflow matrix (20 x 20 bins spanning the cycles), set by
+    :func:`with_cycle_matrices`; None before that or without series.
     """
 
     joint: str
@@ -493,6 +549,10 @@ class JointLoads:
     series: SeriesFigures | None
     sources: dict[str, str]
     damage_per_day: float | None = None
+
+    @property
+    def cycle_matrix(self) -> CycleMatrix | None:
+        return None if self.series is None else self.series.rainflow.matrix
 
     @property
     def hours(self) -> float:
@@ -534,10 +594,10 @@ class JointLoads:
                         "equivalent_torque_nm": {k: equivalent_torque_nm(ps, parse_exponent(k))
                                                  for k in self.exponents}}
             d["phases"] = phases or None
-            c = s.cycles
+            c = s.rainflow
             d["rainflow"] = {"cycles": c.total,
-                             "half_cycles_from_residue": float(c.count[c.count == 0.5].sum()),
-                             "max_range_nm": float(c.range.max()) if c.range.size else 0.0,
+                             "half_cycles_from_residue": c.residue,
+                             "max_range_nm": c.max_range,
                              "damage_per_day": self.damage_per_day,
                              "life_days": (1.0 / self.damage_per_day
                                            if self.damage_per_day else None),
@@ -569,8 +629,7 @@ def _weighted_series(parts: Sequence[tuple[SeriesFigures, float]],
         tuple(float(sum(f.upcrossings[k] * w for f, w in parts)) for k in range(len(f0.levels_nm))),
         tuple(float(sum(f.time_above_s[k] * w for f, w in parts))
               for k in range(len(f0.levels_nm))),
-        (parts[0][0].cycles.scaled(parts[0][1]) if len(parts) == 1
-         else concat_cycles(f.cycles.scaled(w) for f, w in parts)))
+        combine_totals([(f.rainflow, w) for f, w in parts]))
 
 
 @dataclass(frozen=True)
@@ -619,6 +678,7 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
     ``levels_nm``: exceedance levels; None uses 50, 75 and 90 % of each joint's peak torque.
     """
     exps = {k: parse_exponent(k) for k in exponents}
+    curves = () if sn_curve is None else (sn_curve,)
     spectra = usage_spectra(mix, joints, allow_failed)
     names = list(spectra)
     notes = [CAUTION,
@@ -639,7 +699,7 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
             if reason:
                 break
             for j, f in series_figures(rec, names, levels, hold_speed_rad_s, hold_torque_nm,
-                                       rows).items():
+                                       rows, curves).items():
                 parts[j].append((f, e.weight))
     series_parts = None if reason else parts
     if reason:
@@ -659,7 +719,7 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
             sources["phases"] = ("series" if ser.stance is not None else
                                  "unavailable: no /feet/<leg>/contact flags in the record")
             if sn_curve is not None:
-                dmg = miner_damage(ser.cycles, sn_curve)
+                dmg = ser.rainflow.miner_damage(sn_curve)
         else:
             for k in ("hold", "exceedances", "rainflow", "phases"):
                 sources[k] = "unavailable: " + (reason or "no series")
@@ -667,3 +727,34 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
                             {k: equivalent_torque_nm(sp, p) for k, p in exps.items()},
                             hold_speed_rad_s, hold_torque_nm, ser, sources, dmg)
     return LoadsReport(mix, out, tuple(notes), sn_curve)
+
+
+def with_cycle_matrices(report: LoadsReport, bins: int = CYCLE_MATRIX_BINS,
+                        rows: int = SERIES_CHUNK_ROWS) -> LoadsReport:
+    """``report`` with the day's rainflow cycle matrix of every joint that has series figures
+    (:attr:`JointLoads.cycle_matrix`): ``bins`` x ``bins`` bins, ranges from 0 to the largest
+    range and means between the extreme cycle means over all records (as found by
+    :func:`duty_loads`). The edges are known only once every cycle has been seen, so this
+    reads the load torque of each record a second time; each record's matrix counts for its
+    entry weight. Returns ``report`` itself when there is nothing to add.
+    """
+    todo = {j: jl for j, jl in report.joints.items()
+            if jl.series is not None and jl.series.rainflow.matrix is None}
+    if not todo:
+        return report
+    edges = {}
+    for j, jl in todo.items():
+        assert jl.series is not None
+        r = jl.series.rainflow
+        edges[j] = cycle_matrix_edges(r.max_range, r.mean_min, r.mean_max, bins)
+    parts: dict[str, list[tuple[CycleMatrix, float]]] = {j: [] for j in todo}
+    for e in report.mix.entries:
+        with open_record(e.path) as rec:
+            for j, m in cycle_matrices(rec, edges, rows).items():
+                parts[j].append((m, e.weight))
+    joints = dict(report.joints)
+    for j, jl in todo.items():
+        assert jl.series is not None
+        r = dataclasses.replace(jl.series.rainflow, matrix=combine_matrices(parts[j]))
+        joints[j] = dataclasses.replace(jl, series=dataclasses.replace(jl.series, rainflow=r))
+    return dataclasses.replace(report, joints=joints)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 import rainflow
@@ -11,7 +13,11 @@ from hypothesis import strategies as st
 from sim.errors import InputError
 from sim.rainflow import (
     BasquinCurve,
+    CycleTally,
+    ExactSum,
     ReversalStream,
+    combine_totals,
+    concat_cycles,
     count_by_range,
     damage_equivalent_range,
     extract_cycles,
@@ -174,3 +180,169 @@ def test_cutoff_removes_small_ranges_and_bad_curves_are_refused():
     assert d == pytest.approx(0.5 * 0.9**5 / 1e6)  # only the half cycle of range 9 counts
     with pytest.raises(InputError, match="positive"):
         BasquinCurve(range_ref=10.0, cycles_ref=-1.0, exponent=5.0)
+
+
+# -- totals of cycles fed in chunks (bounded memory) -----------------------------------------
+
+wide_floats = st.lists(st.floats(-1e300, 1e300, allow_nan=False, allow_infinity=False)
+                       | st.floats(-1e-300, 1e-300), max_size=80)
+
+
+@settings(max_examples=200, deadline=None)
+@given(wide_floats, st.lists(st.integers(0, 80), max_size=5), st.randoms(use_true_random=False))
+def test_exact_sum_is_the_correctly_rounded_sum_in_any_order_and_batches(xs, cuts, rnd):
+    # reference: Python's math.fsum (Shewchuk's algorithm, correctly rounded sum of floats)
+    want = math.fsum(xs)
+    ys = list(xs)
+    rnd.shuffle(ys)
+    acc = ExactSum()
+    prev = 0
+    for c in [*sorted(min(c, len(ys)) for c in cuts), len(ys)]:
+        acc.add(np.asarray(ys[prev:c], float))
+        prev = c
+    assert acc.value() == want
+    assert ExactSum(xs).value() == want
+    assert float(acc.exact()) == want
+
+
+def _gait_like(n, seed=3, start=0):
+    rng = np.random.default_rng(seed)
+    t = (start + np.arange(n)) * 1e-3
+    return 8 * np.sin(2 * np.pi * 2.3 * t) + 3 * np.sin(6 * np.pi * 2.3 * t + 1) \
+        + 0.3 * rng.standard_normal(n)
+
+
+CURVES = (BasquinCurve(range_ref=10.0, cycles_ref=1e6, exponent=5.0),
+          BasquinCurve(range_ref=10.0, cycles_ref=1e6, exponent=3.0, cutoff_range=2.0))
+EDGES = (np.linspace(0.0, 25.0, 11), np.linspace(-12.0, 12.0, 9))
+
+
+def _tally_in_chunks(x, size, edges=EDGES):
+    s = ReversalStream(keep=False)
+    t = CycleTally(CURVES, (3.0, 5.0), edges)
+    for a in range(0, x.size, size):
+        t.add(s.feed(x[a:a + size]))
+    t.add(s.finish())
+    return t.totals()
+
+
+def _same_totals(a, b):
+    assert (a.closed, a.residue, a.total, a.max_range, a.mean_min, a.mean_max, a.damage,
+            a.range_moments) == (b.closed, b.residue, b.total, b.max_range, b.mean_min,
+                                 b.mean_max, b.damage, b.range_moments)
+    assert np.array_equal(a.matrix.counts, b.matrix.counts)
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.one_of(small_ints, floats), st.integers(1, 7))
+def test_tally_of_small_chunks_equals_tally_of_one_chunk_and_the_cycle_list(seq, size):
+    # metamorphic (chunking changes nothing, to the bit) and against the whole-series cycle
+    # list, itself checked against rainflow 3.2.0 above; sums against math.fsum
+    x = np.asarray(seq, float)
+    whole = _tally_in_chunks(x, max(1, x.size))
+    _same_totals(_tally_in_chunks(x, size), whole)
+    c = extract_cycles(x)
+    assert whole.closed == np.count_nonzero(c.count == 1.0)
+    assert whole.residue == c.count[c.count == 0.5].sum() and whole.total == c.total
+    assert whole.max_range == (c.range.max() if c.range.size else 0.0)
+    assert np.array_equal(whole.matrix.counts, c.matrix(*EDGES))
+    for curve, d in zip(CURVES, whole.damage, strict=True):
+        assert d == math.fsum((c.count / curve.cycles_to_failure(c.range)).tolist())
+        assert d == miner_damage(c, curve)
+    for k, m in zip((3.0, 5.0), whole.range_moments, strict=True):
+        assert m == math.fsum((c.count * c.range**k).tolist())
+
+
+def test_tally_of_a_long_series_in_chunks_equals_the_whole_series():
+    # a long gait-like load with noise: many vectorised passes per chunk
+    x = _gait_like(60000)
+    whole = _tally_in_chunks(x, x.size)
+    for size in (5, 997, 4096):
+        _same_totals(_tally_in_chunks(x, size), whole)
+    c = extract_cycles(x)
+    assert whole.total == c.total > 1000
+    assert np.array_equal(whole.matrix.counts, c.matrix(*EDGES))
+    # the largest range of ASTM E1049-85 counting with the residue as halves spans the
+    # series' extremes (they are never removed by a closure)
+    assert whole.max_range == x.max() - x.min()
+    assert whole.damage[0] == pytest.approx(miner_damage(c, CURVES[0]), rel=1e-14)
+    assert whole.damage_equivalent_range(5.0, 100.0) == pytest.approx(
+        damage_equivalent_range(c, 5.0, 100.0), rel=1e-14)
+
+
+@settings(max_examples=100, deadline=None)
+@given(small_ints, st.lists(st.integers(0, 60), max_size=4))
+def test_stream_without_keeping_returns_every_cycle_once(seq, cuts):
+    # the cycles returned by feed() and finish() together are those of rainflow 3.2.0
+    x = np.asarray(seq, float)
+    s = ReversalStream(keep=False)
+    got = []
+    prev = 0
+    for c in [*sorted(min(c, x.size) for c in cuts), x.size]:
+        got += _as_tuples(s.feed(x[prev:c]))
+        prev = c
+    got += _as_tuples(s.finish())
+    assert sorted(got) == sorted(rainflow.extract_cycles(x.tolist()))
+
+
+def test_weighted_totals_equal_the_scaled_cycle_lists_taken_together():
+    # records of a usage mix: each record's cycles count `weight` times; reference: the
+    # concatenated scaled cycle lists, summed with math.fsum (exact sums, rounded once)
+    xs = [_gait_like(5000, seed=1), 0.5 * _gait_like(3000, seed=2), np.asarray(ASTM_HISTORY)]
+    ws = [9000.0, 0.37, 20.0]
+    combined = combine_totals([(_tally_in_chunks(x, 777), w) for x, w in zip(xs, ws,
+                                                                              strict=True)])
+    ref = concat_cycles(extract_cycles(x).scaled(w) for x, w in zip(xs, ws, strict=True))
+    assert combined.total == math.fsum(ref.count.tolist())
+    halves = np.concatenate([extract_cycles(x).count == 0.5 for x in xs])
+    assert combined.residue == math.fsum(ref.count[halves].tolist())
+    assert combined.max_range == ref.range.max()
+    assert (combined.mean_min, combined.mean_max) == (ref.mean.min(), ref.mean.max())
+    got = combined.matrix.counts
+    for (a, b), n in np.ndenumerate(got):  # each bin: math.fsum of the scaled counts in it
+        inside = ref.count * (_bin_of(ref, EDGES) == (a, b)).all(axis=1)
+        assert n == math.fsum(inside.tolist())
+    assert got == pytest.approx(ref.matrix(*EDGES), rel=1e-13)  # a running float sum
+    assert combined.damage[0] == pytest.approx(miner_damage(ref, CURVES[0]), rel=1e-13)
+
+
+def _bin_of(c, edges):
+    """[cycle, 2] range and mean bin of each cycle, by the rule of Cycles.matrix."""
+    re_, me = edges
+    ir = np.clip(np.searchsorted(re_, c.range, side="right") - 1, 0, len(re_) - 2)
+    im = np.clip(np.searchsorted(me, c.mean, side="right") - 1, 0, len(me) - 2)
+    return np.stack([ir, im], axis=1)
+
+
+def _held_elements(obj, seen=None):
+    """Number of array elements reachable from ``obj`` (its attributes, lists, dicts)."""
+    seen = set() if seen is None else seen
+    if id(obj) in seen:
+        return 0
+    seen.add(id(obj))
+    if isinstance(obj, np.ndarray):
+        return obj.size
+    if isinstance(obj, dict):
+        return sum(_held_elements(v, seen) for v in obj.values())
+    if isinstance(obj, list | tuple):
+        return sum(_held_elements(v, seen) for v in obj)
+    if hasattr(obj, "__dict__"):
+        return _held_elements(vars(obj), seen)
+    return 0
+
+
+def test_stream_and_tally_state_stays_bounded_over_many_chunks():
+    # structural: with keep=False nothing per cycle is held; the tally's arrays keep their
+    # size and the stream holds only the reversals not yet closed, which do not pile up
+    s = ReversalStream(keep=False)
+    t = CycleTally(CURVES, (3.0,), EDGES)
+    sizes, pending = [], []
+    for k in range(400):
+        t.add(s.feed(_gait_like(1000, seed=k, start=1000 * k)))
+        sizes.append(_held_elements(t))
+        pending.append(s.pending)
+    assert t.n_closed > 50000  # many cycles went through
+    assert len(set(sizes)) == 1  # the tally's arrays never grew
+    assert _held_elements(s) == 2 * s.pending  # values and indices of pending reversals only
+    assert max(pending) < 1000  # less than one chunk of samples, after 400 chunks
+    assert all(a._int.bit_length() < 2300 for a in t._damage)  # exact sums: bounded integers

@@ -11,11 +11,18 @@ from hypothesis import strategies as st
 
 from sim.errors import InputError, RecordError
 from sim.mix import resolve_usage
-from sim.rainflow import count_by_range
+from sim.rainflow import (
+    BasquinCurve,
+    concat_cycles,
+    count_by_range,
+    cycle_matrix_edges,
+    extract_cycles,
+)
 from sim.record import open_record
 from sim.spectra import (
     JointSpectrum,
     combine_spectra,
+    cycle_matrices,
     duty_loads,
     equivalent_torque_nm,
     mean_abs_speed_rad_s,
@@ -25,6 +32,7 @@ from sim.spectra import (
     series_figures,
     spectrum_from_record,
     usage_spectra,
+    with_cycle_matrices,
 )
 from tests.loads_records import write_record
 
@@ -133,15 +141,22 @@ def test_doubling_sample_rate_changes_no_cycle_count(tmp_path):
     def tri(t):
         return np.round(np.interp(t, knots_t, knots_v), 9)
 
+    curve = BasquinCurve(range_ref=10.0, cycles_ref=1e6, exponent=5.0)
     out = []
     for dt in (0.001, 0.0005):
         p = write_record(tmp_path / f"t{dt}.h5", 2.0 + dt, dt, {"fl_knee": tri})  # ends at 2 s
         with open_record(p) as rec:
-            out.append(series_figures(rec, ["fl_knee"], {})["fl_knee"].cycles)
-    ra, ca = count_by_range(out[0])
-    rb, cb = count_by_range(out[1])
-    assert np.array_equal(ra, rb) and np.array_equal(ca, cb)
-    assert out[0].total > 7
+            r = series_figures(rec, ["fl_knee"], {}, sn_curves=[curve])["fl_knee"].rainflow
+            edges = cycle_matrix_edges(r.max_range, r.mean_min, r.mean_max)
+            m = cycle_matrices(rec, {"fl_knee": edges})["fl_knee"]
+            ranges, counts = count_by_range(extract_cycles(rec.series("fl_knee", "torque_nm")))
+        out.append((r, m, ranges, counts))
+    (ra, ma, rga, ca), (rb, mb, rgb, cb) = out
+    assert np.array_equal(rga, rgb) and np.array_equal(ca, cb)
+    assert (ra.closed, ra.residue, ra.max_range, ra.mean_min, ra.mean_max, ra.damage) == \
+        (rb.closed, rb.residue, rb.max_range, rb.mean_min, rb.mean_max, rb.damage)
+    assert np.array_equal(ma.counts, mb.counts)
+    assert ra.total == ca.sum() > 7
 
 
 def test_stance_swing_hold_and_exceedances(tmp_path):
@@ -235,3 +250,126 @@ def test_fast_binning_equals_the_record_writers_rule(xs):
                   np.array([-5.0, 0.0, 1.0, 10.0])):
         want = np.clip(np.searchsorted(edges, x, side="right") - 1, 0, len(edges) - 2)
         assert np.array_equal(_bin_index(edges, x), want)
+
+
+# -- rainflow without keeping the cycles --------------------------------------------------------
+
+def _noisy_record(path, seed, duration_s=3.0, contact=True):
+    rng = np.random.default_rng(seed)
+    return write_record(
+        path, duration_s, 0.001,
+        {"fl_knee": lambda t: 8 + 6 * np.sin(2 * np.pi * 3 * t) + rng.normal(size=t.size),
+         "hr_hip": lambda t: 2 * np.cos(2 * np.pi * 1.3 * t) + 0.3 * rng.normal(size=t.size)},
+        {"fl_knee": lambda t: 4 * np.cos(2 * np.pi * 3 * t), "hr_hip": lambda t: np.sin(t)},
+        contact=({"fl": lambda t: (np.sin(2 * np.pi * 3 * t) > 0).astype(int)} if contact
+                 else None), block=777)
+
+
+SN = BasquinCurve(range_ref=10.0, cycles_ref=1e6, exponent=5.0)
+
+
+def test_series_rainflow_in_small_chunks_equals_the_whole_series(tmp_path):
+    # chunks of 7 samples or all at once give the same bits; the reference is the cycle list
+    # of the whole series (extract_cycles, checked against rainflow 3.2.0 in test_rainflow)
+    p = _noisy_record(tmp_path / "n.h5", 1)
+    with open_record(p) as rec:
+        a = series_figures(rec, ["fl_knee", "hr_hip"], {}, rows=7, sn_curves=[SN])
+        b = series_figures(rec, ["fl_knee", "hr_hip"], {}, rows=10**6, sn_curves=[SN])
+        for j in ("fl_knee", "hr_hip"):
+            ra, rb = a[j].rainflow, b[j].rainflow
+            assert ra == rb  # every total, to the bit (no matrix yet)
+            c = extract_cycles(rec.series(j, "torque_nm"))
+            assert (ra.total, ra.residue) == (c.total, c.count[c.count == 0.5].sum())
+            assert ra.max_range == c.range.max()
+            assert (ra.mean_min, ra.mean_max) == (c.mean.min(), c.mean.max())
+            assert ra.damage == (math.fsum((c.count / SN.cycles_to_failure(c.range)).tolist()),)
+            edges = cycle_matrix_edges(ra.max_range, ra.mean_min, ra.mean_max)
+            m7 = cycle_matrices(rec, {j: edges}, rows=7)[j]
+            m_all = cycle_matrices(rec, {j: edges}, rows=10**6)[j]
+            assert np.array_equal(m7.counts, m_all.counts)
+            assert np.array_equal(m7.counts, c.matrix(*edges))
+
+
+def _held_elements(obj, seen=None):
+    """Number of array elements reachable from ``obj`` (attributes, lists, tuples, dicts)."""
+    seen = set() if seen is None else seen
+    if id(obj) in seen:
+        return 0
+    seen.add(id(obj))
+    if isinstance(obj, np.ndarray):
+        return obj.size
+    if isinstance(obj, dict):
+        return sum(_held_elements(v, seen) for v in obj.values())
+    if isinstance(obj, list | tuple):
+        return sum(_held_elements(v, seen) for v in obj)
+    if hasattr(obj, "__dict__"):
+        return _held_elements(vars(obj), seen)
+    return 0
+
+
+def test_series_accumulator_holds_no_per_cycle_arrays(tmp_path):
+    # structural: the accumulator behind series_figures (stance/swing maps, exceedances,
+    # rainflow) keeps arrays of fixed size however many chunks and cycles pass; only the
+    # stream's not yet closed reversals vary, and they stay below one chunk
+    from sim.spectra import _JointAccumulator
+
+    te, se = np.linspace(-50, 50, 101), np.linspace(-40, 40, 81)
+    acc = _JointAccumulator("fl_knee", te, se, 1e-3, [5.0, 10.0], 0.1, 0.5, True, [SN])
+    rng = np.random.default_rng(2)
+    fixed = []
+    for k in range(300):
+        t = (1000 * k + np.arange(1000)) * 1e-3
+        tau = 8 * np.sin(2 * np.pi * 3 * t) + rng.normal(size=t.size)
+        acc.feed(tau, 4 * np.cos(2 * np.pi * 3 * t), (np.sin(2 * np.pi * 3 * t) > 0).astype(int))
+        fixed.append(_held_elements(acc) - 2 * acc.rf.pending)
+        assert acc.rf.pending < 1000
+    assert acc.tally.n_closed > 90000  # many cycles went through
+    assert len(set(fixed)) == 1
+    res = acc.result()
+    assert res.rainflow.total == acc.tally.n_closed + 0.5 * acc.tally.n_half
+
+
+def test_half_cycles_from_residue_scale_with_the_entry_weight(tmp_path):
+    # regression: with a mix weight other than 1 the residue half cycles were found by
+    # comparing the weighted counts with 0.5, so they read 0 (or took in full cycles)
+    p = _noisy_record(tmp_path / "n.h5", 4, duration_s=1.0)
+    lone = duty_loads(resolve_usage(p)).joints["fl_knee"].to_dict()["rainflow"]
+    m = tmp_path / "mix.toml"
+    m.write_text(f'[[duty]]\nrecord = "{p.name}"\nhours_per_day = 2.5\n')
+    mixed = duty_loads(resolve_usage(m)).joints["fl_knee"].to_dict()["rainflow"]
+    w = 2.5 * 3600 / 1.0
+    with open_record(p) as rec:
+        c = extract_cycles(rec.series("fl_knee", "torque_nm"))
+    assert lone["half_cycles_from_residue"] == c.count[c.count == 0.5].sum() > 0
+    assert mixed["half_cycles_from_residue"] == w * lone["half_cycles_from_residue"]
+    assert mixed["cycles"] == w * lone["cycles"]
+
+
+def test_mix_rainflow_equals_the_weighted_cycle_lists_taken_together(tmp_path):
+    # a day of two duties and an event: each record's cycles count its entry weight; the
+    # reference takes the whole cycle lists of the records, scaled, together (math.fsum)
+    recs = [_noisy_record(tmp_path / f"r{k}.h5", 10 + k, duration_s=1.0 + k) for k in range(3)]
+    m = tmp_path / "mix.toml"
+    m.write_text(f'[[duty]]\nrecord = "{recs[0].name}"\nhours_per_day = 1.5\n'
+                 f'[[duty]]\nrecord = "{recs[1].name}"\nhours_per_day = 0.0\n'
+                 f'[[event]]\nname = "e"\nper_day = 7\nrecord = "{recs[2].name}"\n')
+    mix = resolve_usage(m)
+    rep = with_cycle_matrices(duty_loads(mix, sn_curve=SN))
+    for j in ("fl_knee", "hr_hip"):
+        parts = []
+        for e in mix.entries:
+            with open_record(e.path) as rec:
+                parts.append(extract_cycles(rec.series(j, "torque_nm")).scaled(e.weight))
+        ref = concat_cycles(parts)
+        jl = rep.joints[j]
+        rf = jl.to_dict()["rainflow"]
+        assert rf["cycles"] == math.fsum(ref.count.tolist())
+        assert rf["max_range_nm"] == ref.range.max()  # zero-weight records count here too
+        assert rf["damage_per_day"] == pytest.approx(
+            math.fsum((ref.count / SN.cycles_to_failure(ref.range)).tolist()), rel=1e-14)
+        cm = jl.cycle_matrix
+        edges = cycle_matrix_edges(ref.range.max(), ref.mean.min(), ref.mean.max())
+        assert np.array_equal(cm.range_edges, edges[0]) and np.array_equal(cm.mean_edges,
+                                                                            edges[1])
+        assert cm.counts.sum() == pytest.approx(ref.total, rel=1e-14)
+        assert cm.counts == pytest.approx(ref.matrix(*edges), rel=1e-13)

@@ -24,6 +24,7 @@ from sim.spectra import (
     LoadsReport,
     duty_loads,
     parse_exponent,
+    with_cycle_matrices,
 )
 
 HELP = "reduce run records to duty spectra"
@@ -90,11 +91,11 @@ def _csv_text(header: list[str], rows: list[list[Any]]) -> str:
 
 def write_csv(report: LoadsReport, directory: str | Path) -> list[Path]:
     """``<joint>.csv`` (time at level per non-empty bin), ``<joint>_rainflow.csv`` (cycle
-    matrix, when series exist) and ``summary.csv``; returns the paths written."""
+    matrix, when series exist) and ``summary.csv``; returns the paths written. Counts the
+    cycle matrices first if the report lacks them (:func:`sim.spectra.with_cycle_matrices`)."""
     d = Path(directory)
     out = []
-    from sim.plots import rainflow_edges
-
+    report = with_cycle_matrices(report)
     for j, jl in report.joints.items():
         sp = jl.spectrum
         tm = sp.bin_mean_torque_nm("time")
@@ -113,10 +114,9 @@ def write_csv(report: LoadsReport, directory: str | Path) -> list[Path]:
         p = d / f"{j}.csv"
         _write_text(p, _csv_text(header, rows))
         out.append(p)
-        if jl.series is not None:
-            c = jl.series.cycles
-            re_, me = rainflow_edges(c)
-            m = c.matrix(re_, me)
+        cm = jl.cycle_matrix
+        if cm is not None:
+            re_, me, m = cm.range_edges, cm.mean_edges, cm.counts
             rrows = [[re_[a], re_[a + 1], me[b], me[b + 1], m[a, b]]
                      for a, b in zip(*np.nonzero(m > 0), strict=True)]
             p = d / f"{j}_rainflow.csv"
@@ -147,11 +147,12 @@ def write_plots(report: LoadsReport, directory: str | Path) -> list[Path]:
 
     d = Path(directory)
     out = []
+    report = with_cycle_matrices(report)
     for j, jl in report.joints.items():
         out.append(plot_time_at_level(jl.spectrum, d / f"{j}_time_at_level.png"))
         out.append(plot_load_duration(jl.spectrum, d / f"{j}_load_duration.png"))
-        if jl.series is not None:
-            out.append(plot_rainflow_matrix(jl.series.cycles, j, d / f"{j}_rainflow.png"))
+        if jl.cycle_matrix is not None:
+            out.append(plot_rainflow_matrix(jl.cycle_matrix, j, d / f"{j}_rainflow.png"))
     return out
 
 
@@ -194,6 +195,8 @@ def execute(args: argparse.Namespace) -> int:
     mix = _mix_from_args(args)
     report = duty_loads(mix, args.joints, exponents, args.level, args.hold_speed,
                         args.hold_torque, sn, args.allow_failed)
+    if args.csv or args.plot:  # one second pass over the torque for both
+        report = with_cycle_matrices(report)
     written: list[Path] = []
     if args.csv:
         written += write_csv(report, args.csv)
