@@ -92,6 +92,11 @@ def main() -> int:
     ests: dict[str, list[float]] = {}
     tables: dict[str, str] = {}
     t0 = time.perf_counter()
+    import dask
+
+    # the Dask worker's statistical profiler samples every thread 100 times a second and
+    # contends for the interpreter lock with the case; off, as docs/sweep.md advises
+    dask.config.set({"distributed.worker.profile.enabled": False})
     cluster = LocalCluster(processes=True, n_workers=2, threads_per_worker=1,
                            dashboard_address=None)
     print(f"  (Dask LocalCluster started in {time.perf_counter() - t0:.2f} s, not timed below)")
