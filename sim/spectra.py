@@ -487,7 +487,7 @@ def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str
                                     hold_torque_nm, leg_ok[legs[j]], sn_curves)
     names: list[str] = []
     for j in joints:
-        names += [_load_series(rec, j), f"joints/{j}/speed_rad_s"]
+        names += [load_series_name(rec, j), f"joints/{j}/speed_rad_s"]
     leg_list = sorted(leg for leg, ok in leg_ok.items() if ok)
     names += [f"feet/{leg}/contact" for leg in leg_list]
     for _, arrays in rec.iter_chunks(names, rows, reuse=True):
@@ -498,8 +498,9 @@ def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str
     return {j: a.result() for j, a in accs.items()}
 
 
-def _load_series(rec: RunRecord, joint: str) -> str:
-    """Dataset of the load torque of ``joint`` (the reducer output torque series)."""
+def load_series_name(rec: RunRecord, joint: str) -> str:
+    """Dataset of the load torque of ``joint``: the reducer output torque series
+    (``gearbox_torque_nm`` when rotors or reducer losses were simulated, else ``torque_nm``)."""
     return f"joints/{joint}/{rec.attrs.get('load_torque', 'torque_nm')}"
 
 
@@ -514,7 +515,7 @@ def cycle_matrices(rec: RunRecord, edges: Mapping[str, tuple[np.ndarray, np.ndar
         raise RecordError(str(rec.path), "joints", "time series in the record: " + reason)
     streams = {j: ReversalStream(keep=False) for j in joints}
     tallies = {j: CycleTally(edges=edges[j]) for j in joints}
-    for _, arrays in rec.iter_chunks([_load_series(rec, j) for j in joints], rows,
+    for _, arrays in rec.iter_chunks([load_series_name(rec, j) for j in joints], rows,
                                      reuse=True):
         for j, a in zip(joints, arrays, strict=True):
             tallies[j].add(streams[j].feed(np.asarray(a, float)))

@@ -120,10 +120,7 @@ def test_bad_input_exit_2_and_nothing_written(case, record, tmp_path, capsys):
         assert "reduser" in cap.err and "dt.toml" in cap.err
 
 
-def test_peak_events_counted_from_the_record(tmp_path):
-    # three 20 N m pulses above a 15 N m threshold in 1 s; rated part allows 1000 events
-    part = tmp_path / "r.toml"
-    part.write_text("""# invented for a test
+PEAK_PART = """# invented for a test
 kind = "rated"
 ratio = 10.0
 efficiency_forward = 0.9
@@ -135,13 +132,65 @@ rated_life_h = 6000.0
 momentary_peak_torque_nm = 30.0
 peak_count = 1000
 repeated_peak_torque_nm = 15.0
-""")
+"""
+
+
+def _pulses(per_s: int):
+    """20 N m pulses (50 ms) ``per_s`` times a second on a 5 N m base."""
+    return lambda t: np.where((t % (1 / per_s)) < 0.05, 20.0, 5.0)
+
+
+def test_peak_events_of_a_mix_are_weighted_like_its_spectra(tmp_path):
+    # Miner's rule over a day of use (hand calculation): 2 h/day of a 1 s record with 3
+    # events, 1 h/day of a record with none -> 3 * 7200 events in 3 h = 7200 events per hour
+    (tmp_path / "r.toml").write_text(PEAK_PART)
     dt = tmp_path / "dt.toml"
     dt.write_text('[[joint]]\nmatch = "fl_knee"\nreducer = "r.toml"\n')
+    write_synthetic_record(tmp_path / "p.h5", 1.0, 0.001, torque_nm={"fl_knee": _pulses(3)},
+                           speed_rad_s={"fl_knee": 1.0})
+    write_synthetic_record(tmp_path / "q.h5", 1.0, 0.001, torque_nm={"fl_knee": 5.0},
+                           speed_rad_s={"fl_knee": 1.0})
+    mix = tmp_path / "m.toml"
+    mix.write_text('[[duty]]\nrecord = "p.h5"\nhours_per_day = 2.0\n'
+                   '[[duty]]\nrecord = "q.h5"\nhours_per_day = 1.0\n')
+    drive = load_drivetrain(dt)
+    duties = load_duties(mix, list(drive.joints))
+    assert duties["fl_knee"].count_events(15.0) == pytest.approx(3 * 7200.0, rel=1e-12)
+    lim = build_report(drive, duties, CheckSettings()).joints["fl_knee"]["reducer"].limits[0]
+    assert lim.detail["peak_events_per_h"] == pytest.approx(7200.0, rel=1e-12)
+    # a mix of the pulse record alone gives that record's own rate (3 per second)
+    one = tmp_path / "one.toml"
+    one.write_text('[[duty]]\nrecord = "p.h5"\nhours_per_day = 5.0\n')
+    lim1 = build_report(drive, load_duties(one, list(drive.joints)),
+                        CheckSettings()).joints["fl_knee"]["reducer"].limits[0]
+    assert lim1.detail["peak_events_per_h"] == pytest.approx(3 * 3600.0, rel=1e-12)
 
-    def pulses(t):
-        return np.where((t % (1 / 3)) < 0.05, 20.0, 5.0)
-    rec = write_synthetic_record(tmp_path / "p.h5", 1.0, 0.001, torque_nm={"fl_knee": pulses},
+
+def test_peak_events_follow_the_reducer_output_torque(tmp_path):
+    # when rotors or losses were simulated the load is gearbox_torque_nm (root attribute
+    # load_torque): 5 pulses a second there against 3 in the motor-side torque_nm
+    import h5py
+
+    (tmp_path / "r.toml").write_text(PEAK_PART)
+    dt = tmp_path / "dt.toml"
+    dt.write_text('[[joint]]\nmatch = "fl_knee"\nreducer = "r.toml"\n')
+    rec = write_synthetic_record(tmp_path / "g.h5", 1.0, 0.001,
+                                 torque_nm={"fl_knee": _pulses(3)},
+                                 speed_rad_s={"fl_knee": 1.0})
+    with h5py.File(rec, "a") as f:
+        t = f["time_s"][()]
+        f["joints/fl_knee/gearbox_torque_nm"] = _pulses(5)(t)
+        f.attrs["load_torque"] = "gearbox_torque_nm"
+    duties = load_duties(rec, list(load_drivetrain(dt).joints))
+    assert duties["fl_knee"].count_events(15.0) == 5
+
+
+def test_peak_events_counted_from_the_record(tmp_path):
+    # three 20 N m pulses above a 15 N m threshold in 1 s; rated part allows 1000 events
+    (tmp_path / "r.toml").write_text(PEAK_PART)
+    dt = tmp_path / "dt.toml"
+    dt.write_text('[[joint]]\nmatch = "fl_knee"\nreducer = "r.toml"\n')
+    rec = write_synthetic_record(tmp_path / "p.h5", 1.0, 0.001, torque_nm={"fl_knee": _pulses(3)},
                                  speed_rad_s={"fl_knee": 1.0})
     drive = load_drivetrain(dt)
     duties = load_duties(rec, list(drive.joints))

@@ -58,10 +58,11 @@ class CheckSettings:
 @dataclass(frozen=True)
 class JointDuty:
     """A joint's duty: its spectrum and, when the time series is at hand, a counter of torque
-    excursions above a threshold (``count_events(threshold_nm) -> events in the duty``)."""
+    excursions above a threshold (``count_events(threshold_nm) -> events in the duty``; for a
+    usage mix the weighted sum over its records, so possibly fractional)."""
 
     spectrum: JointSpectrum
-    count_events: Callable[[float], int] | None = None
+    count_events: Callable[[float], float] | None = None
 
     @property
     def hours(self) -> float:

@@ -37,7 +37,13 @@ from sim.drivetrain import Drivetrain, load_drivetrain
 from sim.errors import InputError
 from sim.mix import resolve_usage
 from sim.record import open_record
-from sim.spectra import JointSpectrum, spectrum_from_record, usage_spectra
+from sim.spectra import (
+    JointSpectrum,
+    load_series_name,
+    series_unavailable_reason,
+    spectrum_from_record,
+    usage_spectra,
+)
 
 HELP = "check reducers, motors and supply against the spectra"
 
@@ -82,31 +88,56 @@ def mix_spectra(path: Path, joints: Sequence[str], allow_failed: bool = False
     return usage_spectra(resolve_usage(path), joints, allow_failed=allow_failed)
 
 
-def _event_counter(path: Path, joint: str) -> Callable[[float], int]:
-    def count(threshold_nm: float) -> int:
-        total, above = 0, False
-        with open_record(path) as rec:
-            for _, (tau,) in rec.iter_chunks([f"joints/{joint}/torque_nm"]):
-                n, above = count_excursions(np.abs(tau), threshold_nm, above)
-                total += n
+def _event_counter(records: Sequence[tuple[Path, float]], joint: str
+                   ) -> Callable[[float], float]:
+    """Excursions of |load torque| above a threshold, summed over ``(record, weight)`` pairs.
+
+    The load torque is the reducer output torque the spectra follow (``load_torque``)."""
+    def count(threshold_nm: float) -> float:
+        total = 0.0
+        for path, weight in records:
+            n_rec, above = 0, False
+            with open_record(path) as rec:
+                for _, (tau,) in rec.iter_chunks([load_series_name(rec, joint)]):
+                    n, above = count_excursions(np.abs(tau), threshold_nm, above)
+                    n_rec += n
+            total += weight * n_rec
         return total
     return count
 
 
 def load_duties(path: str | Path, joints: Sequence[str], allow_failed: bool = False
                 ) -> dict[str, JointDuty]:
-    """Per-joint duties from a record (with peak-event counting) or a usage mix."""
+    """Per-joint duties from a record or a usage mix, with peak-event counting where every
+    record holds the time series (events of a mix: weighted like its spectra, per day)."""
     p = Path(path)
     if p.suffix.lower() == ".toml":
-        return {j: JointDuty(s) for j, s in mix_spectra(p, joints, allow_failed).items()}
+        mix = resolve_usage(p)
+        spectra = usage_spectra(mix, joints, allow_failed=allow_failed)
+        pairs = [(e.path, e.weight) for e in mix.entries]
+        out = {}
+        for j, s in spectra.items():
+            counter = _event_counter(pairs, j) if _all_series(pairs, j) else None
+            out[j] = JointDuty(s, counter)
+        return out
     with open_record(p) as rec:
         rec.require_completed(allow_failed)
         present = [j for j in joints if j in rec.joint_names]
         if not present:
             raise InputError(str(p), None, "a record holding the drivetrain's joints: "
                              + ", ".join(joints), ", ".join(rec.joint_names))
-        return {j: JointDuty(spectrum_from_record(rec, j), _event_counter(p, j))
+        return {j: JointDuty(spectrum_from_record(rec, j),
+                             _event_counter([(p, 1.0)], j)
+                             if series_unavailable_reason(rec, [j]) is None else None)
                 for j in present}
+
+
+def _all_series(records: Sequence[tuple[Path, float]], joint: str) -> bool:
+    for path, _ in records:
+        with open_record(path) as rec:
+            if series_unavailable_reason(rec, [joint]) is not None:
+                return False
+    return True
 
 
 # ---- the check ----------------------------------------------------------------------------
