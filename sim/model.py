@@ -292,6 +292,11 @@ def _check_mesh(a: Actuator, joint: str, table: dict[str, Any], file: str) -> No
                          f"a mesh stiffness > 0 for {joint}, whose backlash_rad is "
                          f"{a.backlash_rad:g} (the lash is closed by an elastic mesh; "
                          "see docs/dynamics.md)", a.mesh_stiffness_nm_rad)
+    if a.mesh_damping_nm_s_rad > 0 and not a.compliant_mesh:
+        raise InputError(file, actuator_key(table, joint, "mesh_stiffness_nm_rad"),
+                         f"a mesh stiffness > 0 for {joint}, whose mesh_damping_nm_s_rad is "
+                         f"{a.mesh_damping_nm_s_rad:g} (damping acts only in an elastic mesh; "
+                         "see docs/dynamics.md)", a.mesh_stiffness_nm_rad)
     if a.compliant_mesh and a.rotor_inertia_kg_m2 <= 0:
         raise InputError(file, actuator_key(table, joint, "rotor_inertia_kg_m2"),
                          f"a rotor inertia > 0 for {joint}, whose reducer mesh is elastic "

@@ -351,6 +351,8 @@ BAD = [
      [], ["robot.toml", "actuator.knee.mesh_damping_nm_s_rad", ">= 0"]),
     ("backlash without a mesh stiffness", _knee("backlash_rad = 0.005\n"), [],
      ["robot.toml", "actuator.knee.mesh_stiffness_nm_rad", "mesh stiffness > 0"]),
+    ("mesh damping without a mesh stiffness", _knee("mesh_damping_nm_s_rad = 0.9\n"), [],
+     ["robot.toml", "actuator.knee.mesh_stiffness_nm_rad", "damping acts only"]),
     ("mesh too stiff for the time step",
      _knee("backlash_rad = 0.005\nmesh_stiffness_nm_rad = 1e5\n"),
      ["--set", "drive.rotor_inertia=approximate"],
