@@ -20,8 +20,6 @@ meets the shank (J_l) through the dead-zone mesh. Oracles:
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 
 import h5py
 import numpy as np
@@ -34,11 +32,11 @@ from sim.model import load_model
 from sim.runner import JOINT_INDICES, pb, run
 from sim.scenario import load_scenario
 from sim.urdf import build_urdf
+from tests.helpers import load_test_robot
 
 from .conftest import MODELS, SCENARIOS
 
 DT = 1e-3
-FLAGS = pb.URDF_USE_INERTIA_FROM_FILE | pb.URDF_MAINTAIN_LINK_ORDER
 LOCK = {"actuator.abad.friction_coulomb_nm": 200.0, "actuator.hip.friction_coulomb_nm": 200.0}
 KNEE = 2  # fl_knee in JOINT_NAMES
 Q0 = [0.0, 0.8, -2.6] * 4  # knees near their lower end: room to turn under positive torque
@@ -75,14 +73,7 @@ def _robot(world, overrides: dict, mode: str = "approximate", dt: float = DT):
     model = load_model(MODELS / "fennec.toml", overrides)
     opt = DriveOptions(mode)
     urdf = build_urdf(model, rotors=mode, motor_side=mesh_joints(model))
-    with tempfile.TemporaryDirectory() as tmp:
-        fn = os.path.join(tmp, "r.urdf")
-        with open(fn, "w") as fh:
-            fh.write(urdf)
-        r = pb.loadURDF(fn, [0, 0, 1], flags=FLAGS, useFixedBase=True, physicsClientId=world)
-    for link in range(-1, pb.getNumJoints(r, physicsClientId=world)):
-        pb.changeDynamics(r, link, linearDamping=0.0, angularDamping=0.0, physicsClientId=world)
-    pb.changeDynamics(r, -1, maxJointVelocity=1e4, physicsClientId=world)
+    r = load_test_robot(pb, world, urdf)
     pb.setJointMotorControlArray(r, JOINT_INDICES, pb.VELOCITY_CONTROL, forces=[0.0] * 12,
                                  physicsClientId=world)
     for j, v in zip(JOINT_INDICES, Q0, strict=True):

@@ -9,9 +9,6 @@ rotor the effective inertia J + N^2 J_r (e.g. Featherstone, Rigid Body Dynamics 
 
 from __future__ import annotations
 
-import os
-import tempfile
-
 import numpy as np
 import pinocchio as pin
 import pytest
@@ -21,24 +18,12 @@ from sim.drive import DriveOptions, Drivetrain, attach_rotor, loss_torque_nm
 from sim.model import load_model
 from sim.runner import JOINT_INDICES, pb
 from sim.urdf import build_urdf, rotor_joint_name
+from tests.helpers import load_test_robot
 
 from .conftest import MODELS
 
 DT = 1e-3
-FLAGS = pb.URDF_USE_INERTIA_FROM_FILE | pb.URDF_MAINTAIN_LINK_ORDER
 STAND_Q = [0.0, 0.8, -1.6] * 4
-
-
-def _load(cid: int, urdf: str, fixed: bool = True) -> int:
-    with tempfile.TemporaryDirectory() as tmp:
-        fn = os.path.join(tmp, "r.urdf")
-        with open(fn, "w") as fh:
-            fh.write(urdf)
-        r = pb.loadURDF(fn, [0, 0, 1], flags=FLAGS, useFixedBase=fixed, physicsClientId=cid)
-    for link in range(-1, pb.getNumJoints(r, physicsClientId=cid)):
-        pb.changeDynamics(r, link, linearDamping=0.0, angularDamping=0.0, physicsClientId=cid)
-    pb.changeDynamics(r, -1, maxJointVelocity=1e4, physicsClientId=cid)
-    return r
 
 
 @pytest.fixture
@@ -72,7 +57,7 @@ def _pendulum_urdf(j_rotor: float | None) -> str:
 
 @pytest.mark.parametrize(("j_rotor", "ratio"), [(6.5e-5, 9.0), (6.5e-5, 15.0), (2e-4, 5.0)])
 def test_pendulum_with_geared_rotor_has_inertia_j_plus_n2_jr(world, j_rotor, ratio):
-    r = _load(world, _pendulum_urdf(j_rotor))
+    r = load_test_robot(pb, world, _pendulum_urdf(j_rotor))
     pb.setJointMotorControlArray(r, [0, 1], pb.VELOCITY_CONTROL, forces=[0, 0],
                                  physicsClientId=world)
     attach_rotor(pb, world, r, 1, 0, [0, 1, 0], ratio)
@@ -100,7 +85,7 @@ def test_pendulum_with_geared_rotor_has_inertia_j_plus_n2_jr(world, j_rotor, rat
 
 def _robot(world, mode: str, overrides: dict | None = None, gravity: bool = False):
     model = load_model(MODELS / "fennec.toml", overrides)
-    r = _load(world, build_urdf(model, rotors=mode))
+    r = load_test_robot(pb, world, build_urdf(model, rotors=mode))
     if gravity:
         pb.setGravity(0, 0, -9.80665, physicsClientId=world)
     pb.setJointMotorControlArray(r, JOINT_INDICES, pb.VELOCITY_CONTROL, forces=[0.0] * 12,

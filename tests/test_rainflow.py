@@ -24,6 +24,7 @@ from sim.rainflow import (
     find_reversals,
     miner_damage,
 )
+from tests.helpers import held_elements
 
 # ASTM E1049-85 (reapproved 2011), section 5.4.4, example load history (peaks and valleys A..I)
 ASTM_HISTORY = [-2, 1, -3, 5, -1, 3, -4, 4, -2]
@@ -314,23 +315,6 @@ def _bin_of(c, edges):
     return np.stack([ir, im], axis=1)
 
 
-def _held_elements(obj, seen=None):
-    """Number of array elements reachable from ``obj`` (its attributes, lists, dicts)."""
-    seen = set() if seen is None else seen
-    if id(obj) in seen:
-        return 0
-    seen.add(id(obj))
-    if isinstance(obj, np.ndarray):
-        return obj.size
-    if isinstance(obj, dict):
-        return sum(_held_elements(v, seen) for v in obj.values())
-    if isinstance(obj, list | tuple):
-        return sum(_held_elements(v, seen) for v in obj)
-    if hasattr(obj, "__dict__"):
-        return _held_elements(vars(obj), seen)
-    return 0
-
-
 def test_stream_and_tally_state_stays_bounded_over_many_chunks():
     # structural: with keep=False nothing per cycle is held; the tally's arrays keep their
     # size and the stream holds only the reversals not yet closed, which do not pile up
@@ -339,10 +323,10 @@ def test_stream_and_tally_state_stays_bounded_over_many_chunks():
     sizes, pending = [], []
     for k in range(400):
         t.add(s.feed(_gait_like(1000, seed=k, start=1000 * k)))
-        sizes.append(_held_elements(t))
+        sizes.append(held_elements(t))
         pending.append(s.pending)
     assert t.n_closed > 50000  # many cycles went through
     assert len(set(sizes)) == 1  # the tally's arrays never grew
-    assert _held_elements(s) == 2 * s.pending  # values and indices of pending reversals only
+    assert held_elements(s) == 2 * s.pending  # values and indices of pending reversals only
     assert max(pending) < 1000  # less than one chunk of samples, after 400 chunks
     assert all(a._int.bit_length() < 2300 for a in t._damage)  # exact sums: bounded integers

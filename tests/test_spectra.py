@@ -34,6 +34,7 @@ from sim.spectra import (
     usage_spectra,
     with_cycle_matrices,
 )
+from tests.helpers import held_elements
 from tests.loads_records import write_record
 
 RPM = 2 * math.pi / 60
@@ -290,23 +291,6 @@ def test_series_rainflow_in_small_chunks_equals_the_whole_series(tmp_path):
             assert np.array_equal(m7.counts, c.matrix(*edges))
 
 
-def _held_elements(obj, seen=None):
-    """Number of array elements reachable from ``obj`` (attributes, lists, tuples, dicts)."""
-    seen = set() if seen is None else seen
-    if id(obj) in seen:
-        return 0
-    seen.add(id(obj))
-    if isinstance(obj, np.ndarray):
-        return obj.size
-    if isinstance(obj, dict):
-        return sum(_held_elements(v, seen) for v in obj.values())
-    if isinstance(obj, list | tuple):
-        return sum(_held_elements(v, seen) for v in obj)
-    if hasattr(obj, "__dict__"):
-        return _held_elements(vars(obj), seen)
-    return 0
-
-
 def test_series_accumulator_holds_no_per_cycle_arrays(tmp_path):
     # structural: the accumulator behind series_figures (stance/swing maps, exceedances,
     # rainflow) keeps arrays of fixed size however many chunks and cycles pass; only the
@@ -321,7 +305,7 @@ def test_series_accumulator_holds_no_per_cycle_arrays(tmp_path):
         t = (1000 * k + np.arange(1000)) * 1e-3
         tau = 8 * np.sin(2 * np.pi * 3 * t) + rng.normal(size=t.size)
         acc.feed(tau, 4 * np.cos(2 * np.pi * 3 * t), (np.sin(2 * np.pi * 3 * t) > 0).astype(int))
-        fixed.append(_held_elements(acc) - 2 * acc.rf.pending)
+        fixed.append(held_elements(acc) - 2 * acc.rf.pending)
         assert acc.rf.pending < 1000
     assert acc.tally.n_closed > 90000  # many cycles went through
     assert len(set(fixed)) == 1

@@ -1,7 +1,7 @@
 """``gaitload check RECORD_OR_MIX --drivetrain FILE``: reducers against the duty spectra.
 
-Reads the duty (a run record now; a usage mix once ``sim.mix`` exists, see
-:func:`mix_spectra`), loads the drivetrain, checks each joint's reducer and prints a table
+Reads the duty (a run record or a usage mix, see :func:`load_duties`), loads the
+drivetrain, checks each joint's reducer and prints a table
 (or JSON with ``--json``). Exit code 0 when every joint passes, 1 when any fails, 2 on bad
 input (nothing is written then). Further sections (motor, supply) are added to the same
 report with :func:`sim.checks.report.add_section`.
@@ -38,7 +38,6 @@ from sim.errors import InputError
 from sim.mix import resolve_usage
 from sim.record import open_record
 from sim.spectra import (
-    JointSpectrum,
     load_series_name,
     series_unavailable_reason,
     spectrum_from_record,
@@ -82,12 +81,6 @@ def settings_from_args(args: argparse.Namespace) -> CheckSettings:
 
 # ---- duty input ---------------------------------------------------------------------------
 
-def mix_spectra(path: Path, joints: Sequence[str], allow_failed: bool = False
-                ) -> dict[str, JointSpectrum]:
-    """Spectra of a usage mix (TOML listing records with hours per day), for one day of use."""
-    return usage_spectra(resolve_usage(path), joints, allow_failed=allow_failed)
-
-
 def _event_counter(records: Sequence[tuple[Path, float]], joint: str
                    ) -> Callable[[float], float]:
     """Excursions of |load torque| above a threshold, summed over ``(record, weight)`` pairs.
@@ -115,11 +108,12 @@ def load_duties(path: str | Path, joints: Sequence[str], allow_failed: bool = Fa
         mix = resolve_usage(p)
         spectra = usage_spectra(mix, joints, allow_failed=allow_failed)
         pairs = [(e.path, e.weight) for e in mix.entries]
-        out = {}
-        for j, s in spectra.items():
-            counter = _event_counter(pairs, j) if _all_series(pairs, j) else None
-            out[j] = JointDuty(s, counter)
-        return out
+        countable = set(spectra)  # joints whose series every record of the mix holds
+        for rec_path, _ in pairs:
+            with open_record(rec_path) as rec:
+                countable = {j for j in countable if series_unavailable_reason(rec, [j]) is None}
+        return {j: JointDuty(s, _event_counter(pairs, j) if j in countable else None)
+                for j, s in spectra.items()}
     with open_record(p) as rec:
         rec.require_completed(allow_failed)
         present = [j for j in joints if j in rec.joint_names]
@@ -130,14 +124,6 @@ def load_duties(path: str | Path, joints: Sequence[str], allow_failed: bool = Fa
                              _event_counter([(p, 1.0)], j)
                              if series_unavailable_reason(rec, [j]) is None else None)
                 for j in present}
-
-
-def _all_series(records: Sequence[tuple[Path, float]], joint: str) -> bool:
-    for path, _ in records:
-        with open_record(path) as rec:
-            if series_unavailable_reason(rec, [joint]) is not None:
-                return False
-    return True
 
 
 # ---- the check ----------------------------------------------------------------------------
