@@ -1,23 +1,25 @@
 """gaitload: duty cycles, reducer life and motor heating for the joints of walking robots.
 
-Module map and the one dependency rule (data flows top to bottom; a module may import
-only from modules above it or beside it in the same group):
+Stages, in the order data flows (each package's docstring says what it takes and gives). A
+module imports only from its own stage and the stages above it; only the commands import the
+figures, and nothing imports the commands (enforced by tests/test_layering.py):
 
-    errors, config, atomic         - error hierarchy, strict TOML reading, atomic file output
-    inertia, model, kinematics,    - robot description (pure numpy)
-    actuator, statics, urdf,
-    backdrive
-    scenario, gait, gaits.*, jump  - what to do and how (pure numpy)
-    drive                          - engine-side rotor and friction set-up (called by runner)
-    runner                         - THE ONLY MODULE THAT IMPORTS pybullet
-    record                         - THE ONLY MODULE THAT TOUCHES h5py
-    spectra, rainflow, mix         - post-processing of records (never imports the engine)
-    drivetrain, materials,         - reducer, motor, thermal and supply checks on spectra
-    checks.*
-    sweep                          - many cases in parallel (process pool or Dask)
-    plots, sweep_plots,            - matplotlib figures (imported lazily)
-    checks.plots, checks.motor_plots
-    cli, commands.*                - thin command-line layer over the library
+    core      errors, config, atomic   - error hierarchy, strict TOML reading, atomic output
+    robot     model, urdf, kinematics, - the robot description (pure numpy)
+              statics, inertia
+    drive     envelope, dynamics,      - actuator torque envelope, engine-side drive dynamics
+              backdrive                  (rotors, friction, backlash), back-drive figures
+    scenario  scenario_file, segments, - what the robot does: scenario files, the registry of
+              disturbance, gaits.*       segment kinds, the segment controllers (pure numpy)
+    record                             - THE ONLY MODULE THAT TOUCHES h5py
+    engine    runner                   - THE ONLY MODULE THAT IMPORTS pybullet
+    loads     spectra, rainflow, mix   - records to duty spectra (never imports the engine)
+    checks    drivetrain_file, reducer - parts against spectra: reducers, bearings, contact,
+              and its kinds, motor, ...  gears, materials, motor, thermal, supply, report
+    sweeps    sweep                    - many cases in parallel (process pool or Dask)
+    figures   loads, check, motor,     - matplotlib figures (imported lazily)
+              sweep
+    commands  cli, <command>           - thin command-line layer over the library
 
 Array convention everywhere: time series are ``[sample]`` or ``[sample, component]``;
 per-joint arrays are dictionaries keyed by joint name (``fl_knee``) rather than a joint axis.

@@ -1,5 +1,5 @@
 """``python -m sim`` is the same as the ``gaitload`` command."""
 
-from sim.cli import entry
+from sim.commands.cli import entry
 
 entry()

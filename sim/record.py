@@ -55,7 +55,7 @@ from typing import Any
 import h5py
 import numpy as np
 
-from sim.errors import RecordError
+from sim.core.errors import RecordError
 
 FORMAT_VERSION = 1
 STATUSES = ("completed", "fell", "diverged", "interrupted")

@@ -19,8 +19,8 @@ MODELS = ROOT / "models"
 @pytest.fixture(scope="session")
 def stand_record(tmp_path_factory) -> Path:
     """A 2.5 s stand (first 1.5 s settling left out) of the demo robot."""
-    from sim.runner import run
-    from sim.scenario import load_scenario
+    from sim.engine.runner import run
+    from sim.scenario.scenario_file import load_scenario
 
     scn = load_scenario(SCENARIOS / "stand.toml",
                         ["segment.0.duration_s=2.5", "record.start_s=1.5"])

@@ -16,17 +16,17 @@ import pinocchio as pin
 import pytest
 
 from sim import JOINT_NAMES, LEGS
-from sim.backdrive import (
+from sim.commands.cli import main
+from sim.drive.backdrive import (
     impact_mitigation_factor,
     joint_metrics,
     leg_impact_mitigation,
     mass_matrix,
     operational_inertia,
 )
-from sim.cli import main
-from sim.gait import stance_angles
-from sim.model import load_model
-from sim.urdf import build_urdf
+from sim.robot.model import load_model
+from sim.robot.urdf import build_urdf
+from sim.scenario.segments import stance_angles
 
 from .conftest import MODELS
 

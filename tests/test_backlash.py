@@ -1,4 +1,4 @@
-"""Reducer backlash and elastic mesh in the dynamics (sim/drive.py, docs/dynamics.md).
+"""Reducer backlash and elastic mesh in the dynamics (sim/drive/dynamics.py, docs/dynamics.md).
 
 One knee of the demo robot turns on a fixed axis (fixed base, no gravity, abad and hip held by
 a large Coulomb friction, as in tests/test_drive.py); its motor side (inertia J_m = N^2 J_r)
@@ -26,12 +26,12 @@ import numpy as np
 import pytest
 
 from sim import JOINT_NAMES
-from sim.cli import main
-from sim.drive import DriveOptions, Drivetrain, mesh_joints, mesh_step_number
-from sim.model import load_model
-from sim.runner import JOINT_INDICES, pb, run
-from sim.scenario import load_scenario
-from sim.urdf import build_urdf
+from sim.commands.cli import main
+from sim.drive.dynamics import DriveOptions, Drivetrain, mesh_joints, mesh_step_number
+from sim.engine.runner import JOINT_INDICES, pb, run
+from sim.robot.model import load_model
+from sim.robot.urdf import build_urdf
+from sim.scenario.scenario_file import load_scenario
 from tests.helpers import load_test_robot
 
 from .conftest import MODELS, SCENARIOS
@@ -254,7 +254,7 @@ def test_output_feedback_through_the_mesh_needs_the_routh_hurwitz_damping(factor
     j_m = model0.actuators["fl_knee"].reflected_inertia_kg_m2
     j_l = _shank_inertia_about_knee(model0)
     c_min = _routh_hurwitz_damping(j_m, j_l, k, kp, kd)
-    # the rule of thumb of sim/drive.py, from a3 a2 > a4 a1 with c small
+    # the rule of thumb of sim/drive/dynamics.py, from a3 a2 > a4 a1 with c small
     assert c_min == pytest.approx(kd * j_m * j_l / (j_m + j_l) ** 2, rel=0.2)
     cid = _connect(dt)
     try:
@@ -378,7 +378,7 @@ def test_bad_backlash_input_is_refused_clearly(tmp_path, capsys, name, model, ex
 
 def test_the_backlash_sweep_resolves_to_four_valid_cases():
     # every case passes the input checks (mesh stability at its time step) before anything runs
-    from sim.sweep import load_sweep, resolve_cases
+    from sim.sweeps.sweep import load_sweep, resolve_cases
 
     cases = resolve_cases(load_sweep(SCENARIOS / "sweep_backlash.toml"))
     assert [c.spec is not None for c in cases] == [True] * 4, [c.error for c in cases]
@@ -389,6 +389,6 @@ def test_the_backlash_sweep_resolves_to_four_valid_cases():
 def load_model_text(text: str):
     import tomllib
 
-    from sim.model import model_from_data
+    from sim.robot.model import model_from_data
 
     return model_from_data(tomllib.loads(text), "resolved model")

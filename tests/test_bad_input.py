@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from sim.cli import main
+from sim.commands.cli import main
 
 from .conftest import MODELS, SCENARIOS
 

@@ -10,7 +10,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from sim.checks import bearing as b
-from sim.errors import InputError
+from sim.core.errors import InputError
 
 RPM = 2.0 * math.pi / 60.0
 

@@ -12,8 +12,8 @@ from hypothesis import strategies as st
 
 from sim.checks import belt as b
 from sim.checks.reducer import CheckSettings, JointDuty, check_reducer
-from sim.errors import InputError
-from sim.spectra import JointSpectrum
+from sim.core.errors import InputError
+from sim.loads.spectra import JointSpectrum
 
 
 def test_open_drive_geometry_example():

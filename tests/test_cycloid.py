@@ -16,7 +16,7 @@ import pytest
 from scipy.optimize import minimize_scalar
 
 from sim.checks import cycloid as c
-from sim.errors import InputError
+from sim.core.errors import InputError
 
 N, R, E = 20, 0.040, 0.0015  # literature-style example: K1 = 0.75
 
@@ -242,7 +242,7 @@ def test_check_reports_forces_under_the_spectrum_peak():
     # the spectrum's peak torque drives the reported forces; closed form (Malhotra &
     # Parameswaran 1983) and discrete pin sum agree within the discreteness of 12 pins
     from sim.checks.reducer import CheckSettings, JointDuty, check_reducer
-    from sim.spectra import JointSpectrum
+    from sim.loads.spectra import JointSpectrum
     stage = c.cycloid_from_table(part_table(), "hip.toml")
     spec = JointSpectrum("fl_hip", np.array([9.0, 11.0]), np.array([-10.0, 10.0]),
                          np.array([[3600.0]]), np.array([[3600 * 2.0 / (2 * np.pi)]]), 3600.0,

@@ -14,10 +14,10 @@ import pinocchio as pin
 import pytest
 
 from sim import JOINT_NAMES
-from sim.drive import DriveOptions, Drivetrain, attach_rotor, loss_torque_nm
-from sim.model import load_model
-from sim.runner import JOINT_INDICES, pb
-from sim.urdf import build_urdf, rotor_joint_name
+from sim.drive.dynamics import DriveOptions, Drivetrain, attach_rotor, loss_torque_nm
+from sim.engine.runner import JOINT_INDICES, pb
+from sim.robot.model import load_model
+from sim.robot.urdf import build_urdf, rotor_joint_name
 from tests.helpers import load_test_robot
 
 from .conftest import MODELS
@@ -268,8 +268,8 @@ def test_loss_torque_is_continuous_and_matches_both_limits():
 @pytest.mark.parametrize("setting", ["drive.rotor_inertai=exact", "drive.rotor_inertia=full",
                                      "start.drop_height=0.1"])
 def test_bad_drive_or_start_keys_are_rejected(setting):
-    from sim.errors import InputError
-    from sim.scenario import load_scenario
+    from sim.core.errors import InputError
+    from sim.scenario.scenario_file import load_scenario
 
     from .conftest import SCENARIOS
 
@@ -279,7 +279,7 @@ def test_bad_drive_or_start_keys_are_rejected(setting):
 
 
 def test_misspelt_actuator_loss_key_is_rejected():
-    from sim.errors import InputError
+    from sim.core.errors import InputError
 
     with pytest.raises(InputError, match="efficency_back"):
         load_model(MODELS / "fennec.toml", {"actuator.knee.efficency_back": 0.8})

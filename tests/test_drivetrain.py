@@ -9,10 +9,10 @@ import pytest
 from sim import JOINT_NAMES
 from sim.checks.belt import BeltDrive
 from sim.checks.cycloid import CycloidStage
+from sim.checks.drivetrain_file import load_drivetrain
+from sim.checks.materials import MATERIALS_FILE, load_materials
 from sim.checks.planetary import PlanetaryStage
-from sim.drivetrain import load_drivetrain
-from sim.errors import InputError
-from sim.materials import MATERIALS_FILE, load_materials
+from sim.core.errors import InputError
 
 MODELS = Path(__file__).resolve().parent.parent / "models"
 PARTS = MODELS / "parts"

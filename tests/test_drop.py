@@ -14,10 +14,10 @@ import numpy as np
 import pytest
 
 from sim import LEGS
+from sim.engine.runner import run
 from sim.record import open_record
-from sim.runner import run
-from sim.scenario import load_scenario
-from sim.statics import StanceStatics
+from sim.robot.statics import StanceStatics
+from sim.scenario.scenario_file import load_scenario
 
 from .conftest import SCENARIOS
 
@@ -127,7 +127,7 @@ def test_jump_leaves_the_ground_and_lands_on_its_feet(tmp_path):
 def test_spectra_of_a_rotor_run_follow_the_reducer_output_torque(tmp_path):
     # regression: with rotors the histograms (and so reducer life) must see the gearbox
     # output torque, not the motor torque x ratio; checked against the recorded series
-    from sim.spectra import spectrum_from_record
+    from sim.loads.spectra import spectrum_from_record
 
     _, path = _drop(tmp_path, "rot", ["drive.rotor_inertia=exact", "record.decimation=1",
                                       "ground.stiffness_n_m=0", "ground.damping_n_s_m=0"])
@@ -148,9 +148,9 @@ def test_motor_check_does_not_count_simulated_rotors_twice(tmp_path):
     # with rotors in the simulation, torque_nm is already motor torque x ratio including the
     # rotor's inertia: the motor check must then take it as is (T_m = torque_nm / N, the
     # ideal-gear relation), not add J_r alpha again
+    from sim.checks.drivetrain_file import load_drivetrain
     from sim.checks.motor import check_motors, load_motor_part, simulated_drive_effects
     from sim.checks.supply import load_supply
-    from sim.drivetrain import load_drivetrain
 
     from .conftest import MODELS
 

@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import pytest
 
-from sim.actuator import Envelope
-from sim.model import Actuator
+from sim.drive.envelope import Envelope
+from sim.robot.model import Actuator
 
 ACT = Actuator(gear_ratio=10.0, rotor_inertia_kg_m2=5e-5, torque_constant_nm_a=0.1,
                current_limit_a=20.0, phase_resistance_ohm=0.25, bus_voltage_v=24.0,

@@ -9,12 +9,12 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sim.gaits.footpath import TROT_LIFT, WALK_LIFT, phases, swing_curve, touchdown_offset
-from sim.gaits.legs import LegSolver
-from sim.gaits.load import distribute, load_weights
-from sim.kinematics import LegKinematics, UnreachableError
-from sim.model import load_model
-from sim.statics import distribute_weight
+from sim.robot.kinematics import LegKinematics, UnreachableError
+from sim.robot.model import load_model
+from sim.robot.statics import distribute_weight
+from sim.scenario.gaits.footpath import TROT_LIFT, WALK_LIFT, phases, swing_curve, touchdown_offset
+from sim.scenario.gaits.leg_solver import LegSolver
+from sim.scenario.gaits.stance_forces import distribute, load_weights
 
 from .conftest import MODELS
 
@@ -112,7 +112,7 @@ def test_phase_patterns():
 
 def test_equal_weights_give_the_minimum_norm_split_with_force_and_moment_balance():
     # statics of a rigid body: sum f = W, sum c x f = 0 (Newton-Euler); equal weights give
-    # the minimum-norm distribution of sim.statics.distribute_weight
+    # the minimum-norm distribution of sim.robot.statics.distribute_weight
     c = np.array([[0.2, 0.13, -0.3], [0.2, -0.13, -0.3], [-0.18, 0.13, -0.3],
                   [-0.18, -0.13, -0.3]])
     up = np.array([0.1, -0.05, 0.99])

@@ -15,11 +15,11 @@ import math
 import numpy as np
 import pytest
 
-from sim.errors import InputError
-from sim.gait import stance_angles
+from sim.core.errors import InputError
+from sim.engine.runner import run
 from sim.record import open_record
-from sim.runner import run
-from sim.scenario import load_scenario
+from sim.scenario.scenario_file import load_scenario
+from sim.scenario.segments import stance_angles
 
 from .conftest import SCENARIOS
 
@@ -177,8 +177,8 @@ def test_misspelt_gait_key_is_rejected_with_file_and_key():
 
 
 def test_segment_gains_replace_the_scenario_gains_per_joint_kind():
-    from sim.gait import make_controller
-    from sim.statics import StanceStatics
+    from sim.robot.statics import StanceStatics
+    from sim.scenario.segments import make_controller
 
     scn = load_scenario(SCENARIOS / "trot.toml", ["segment.1.kp_nm_rad.knee=300"])
     ctrl = make_controller(scn.segments[1], scn.model, StanceStatics(scn.model))

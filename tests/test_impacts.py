@@ -15,11 +15,11 @@ import numpy as np
 import pytest
 
 from sim import LEGS
-from sim.errors import InputError
+from sim.core.errors import InputError
+from sim.engine.runner import run
 from sim.record import open_record
-from sim.runner import run
-from sim.scenario import load_scenario
-from sim.statics import StanceStatics
+from sim.robot.statics import StanceStatics
+from sim.scenario.scenario_file import load_scenario
 
 from .conftest import SCENARIOS
 

@@ -15,9 +15,9 @@ import xml.etree.ElementTree as ET
 import numpy as np
 import pytest
 
-from sim.inertia import box, combine, cylinder, sphere
-from sim.model import load_model
-from sim.urdf import build_urdf
+from sim.robot.inertia import box, combine, cylinder, sphere
+from sim.robot.model import load_model
+from sim.robot.urdf import build_urdf
 
 from .conftest import MODELS
 

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from sim.kinematics import LegKinematics, UnreachableError
-from sim.model import load_model
-from sim.urdf import build_urdf
+from sim.robot.kinematics import LegKinematics, UnreachableError
+from sim.robot.model import load_model
+from sim.robot.urdf import build_urdf
 
 from .conftest import MODELS
 

@@ -1,4 +1,4 @@
-"""The ``gaitload loads`` command, called through ``sim.cli.main``."""
+"""The ``gaitload loads`` command, called through ``sim.commands.cli.main``."""
 
 from __future__ import annotations
 
@@ -8,11 +8,11 @@ import h5py
 import numpy as np
 import pytest
 
-from sim.cli import main
-from sim.mix import resolve_usage
-from sim.rainflow import cycle_matrix_edges, extract_cycles
+from sim.commands.cli import main
+from sim.loads.mix import resolve_usage
+from sim.loads.rainflow import cycle_matrix_edges, extract_cycles
+from sim.loads.spectra import equivalent_torque_nm, usage_spectra
 from sim.record import open_record
-from sim.spectra import equivalent_torque_nm, usage_spectra
 from tests.loads_records import write_record
 
 

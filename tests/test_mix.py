@@ -5,9 +5,14 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from sim.errors import InputError
-from sim.mix import load_mix, resolve_usage
-from sim.spectra import equivalent_torque_nm, mean_abs_speed_rad_s, rms_torque_nm, usage_spectra
+from sim.core.errors import InputError
+from sim.loads.mix import load_mix, resolve_usage
+from sim.loads.spectra import (
+    equivalent_torque_nm,
+    mean_abs_speed_rad_s,
+    rms_torque_nm,
+    usage_spectra,
+)
 from tests.loads_records import write_record
 
 

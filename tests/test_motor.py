@@ -30,7 +30,7 @@ from sim.checks.motor import (
     torque_to_speed_constant,
 )
 from sim.checks.supply import Supply
-from sim.errors import InputError, RecordError
+from sim.core.errors import InputError, RecordError
 from tests.synthetic import write_synthetic_record
 
 DEMO = Path(__file__).resolve().parents[1] / "models" / "parts" / "motor_demo.toml"
@@ -299,7 +299,7 @@ def test_usage_mix_of_pairs_weights_rms(tmp_path: Path):
 
 
 def test_plots_written(tmp_path: Path):
-    from sim.checks.motor_plots import plot_all
+    from sim.figures.motor import plot_all
 
     p = write_synthetic_record(tmp_path / "r.h5", 0.5, 0.001, joints=list(JOINT_NAMES[:3]),
                                torque_nm={j: (lambda t: 3 * np.sin(8 * t)) for j in JOINT_NAMES},

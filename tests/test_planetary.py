@@ -16,8 +16,8 @@ from sim.checks import planetary as pl
 from sim.checks.contact import line_contact
 from sim.checks.gear import dynamic_factor, lewis_form_factor
 from sim.checks.reducer import CheckSettings, JointDuty, check_reducer
-from sim.errors import InputError
-from sim.spectra import JointSpectrum
+from sim.core.errors import InputError
+from sim.loads.spectra import JointSpectrum
 
 
 def part_table(**geom) -> dict:

@@ -10,8 +10,8 @@ import rainflow
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sim.errors import InputError
-from sim.rainflow import (
+from sim.core.errors import InputError
+from sim.loads.rainflow import (
     BasquinCurve,
     CycleTally,
     ExactSum,

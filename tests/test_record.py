@@ -6,7 +6,7 @@ import h5py
 import numpy as np
 import pytest
 
-from sim.errors import RecordError
+from sim.core.errors import RecordError
 from sim.record import RecordWriter, open_record
 
 from .synthetic import write_synthetic_record
@@ -71,7 +71,7 @@ def test_reader_refuses_failed_run_unless_allowed(tmp_path):
 
 
 def test_atomic_text_and_bytes_writers_leave_no_half_file(tmp_path):
-    from sim.atomic import write_bytes_atomic, write_text_atomic
+    from sim.core.atomic import write_bytes_atomic, write_text_atomic
 
     p = write_text_atomic(tmp_path / "a" / "x.csv", "t,x\n0,1\n")
     assert p.read_text() == "t,x\n0,1\n"

@@ -15,7 +15,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from sim.checks import reducer as r
-from sim.spectra import JointSpectrum, spectrum_from_record
+from sim.loads.spectra import JointSpectrum, spectrum_from_record
 from tests.synthetic import write_synthetic_record
 
 P = 10.0 / 3.0

@@ -8,9 +8,9 @@ import h5py
 import numpy as np
 import pytest
 
-from sim.cli import main
-from sim.runner import run
-from sim.scenario import load_scenario
+from sim.commands.cli import main
+from sim.engine.runner import run
+from sim.scenario.scenario_file import load_scenario
 
 from .conftest import SCENARIOS
 
@@ -64,7 +64,7 @@ def test_unstable_gains_are_reported_as_divergence(tmp_path):
 
 
 def test_interrupt_leaves_a_record_marked_interrupted(tmp_path, monkeypatch):
-    import sim.runner as runner
+    import sim.engine.runner as runner
 
     real = runner.pb.stepSimulation
     calls = {"n": 0}

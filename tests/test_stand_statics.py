@@ -16,9 +16,9 @@ import numpy as np
 import pytest
 
 from sim import JOINT_NAMES, LEGS
-from sim.model import model_from_data
 from sim.record import open_record
-from sim.urdf import build_urdf
+from sim.robot.model import model_from_data
+from sim.robot.urdf import build_urdf
 
 G = 9.80665
 

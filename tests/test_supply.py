@@ -13,7 +13,7 @@ from sim import JOINT_NAMES, LEGS
 from sim.checks import thermal as th
 from sim.checks.motor import MotorPart, back_emf_constant, check_motors
 from sim.checks.supply import Supply, battery_current_a, bus_power_w, load_supply, pack_energy_wh
-from sim.errors import InputError
+from sim.core.errors import InputError
 from sim.record import RecordWriter
 from tests.synthetic import write_synthetic_record
 

@@ -29,10 +29,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sim import LEGS
-from sim.cli import main
-from sim.errors import InputError
+from sim.commands.cli import main
+from sim.core.errors import InputError
 from sim.record import open_record
-from sim.sweep import (
+from sim.sweeps.sweep import (
     PROVIDERS,
     CaseContext,
     MetricProvider,
@@ -313,7 +313,7 @@ def test_cli_provider_runs_a_command_in_process_and_reads_its_json(monkeypatch, 
 
 
 def test_model_provider_gives_reflected_inertia_n_squared_j():
-    from sim.sweep import _model_provider
+    from sim.sweeps.sweep import _model_provider
 
     text = (MODELS / "fennec.toml").read_text()
     doc = _model_provider(CaseContext(Path("x"), {}, "", text, None))
@@ -381,7 +381,7 @@ def test_pareto_front_is_exactly_the_non_dominated_set(points, gx, gy):
 # --- plots -----------------------------------------------------------------------------------
 
 def test_plots_are_written(lengths_run, tmp_path):
-    from sim.sweep_plots import plot_metrics, plot_pareto
+    from sim.figures.sweep import plot_metrics, plot_pareto
 
     _, result = lengths_run
     f = plot_metrics(result, tmp_path / "metrics.png")

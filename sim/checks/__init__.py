@@ -1,1 +1,8 @@
-"""Checks of drivetrain parts against duty spectra (reducer, motor, thermal, supply)."""
+"""Stage 7, checks: takes duty spectra (and the series behind them) with a drivetrain file
+(:mod:`.drivetrain_file`: which reducer and motor part drives which joint, and the supply) and
+gives per-joint verdicts with their limits and margins: reducer life and peak (:mod:`.reducer`
+and its kinds :mod:`.cycloid`, :mod:`.planetary`, :mod:`.belt`, with :mod:`.bearing`,
+:mod:`.contact`, :mod:`.gear`, :mod:`.materials`), motor envelope and winding temperature
+(:mod:`.motor`, :mod:`.thermal`), battery current and energy (:mod:`.supply`), gathered in the
+report model (:mod:`.report`). Never imports the engine.
+"""

@@ -24,8 +24,8 @@ from typing import Any
 
 import numpy as np
 
-from sim.config import Field, validate
-from sim.errors import InputError
+from sim.core.config import Field, validate
+from sim.core.errors import InputError
 
 BALL_EXPONENT = 3.0
 ROLLER_EXPONENT = 10.0 / 3.0

@@ -35,8 +35,8 @@ from sim.checks.reducer import (
     common_values,
 )
 from sim.checks.report import Limit
-from sim.config import Field, validate
-from sim.errors import InputError
+from sim.core.config import Field, validate
+from sim.core.errors import InputError
 
 
 def pitch_diameter_m(teeth: int, pitch_m: float) -> float:

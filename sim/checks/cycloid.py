@@ -45,7 +45,6 @@ from typing import Any
 
 import numpy as np
 
-from sim.atomic import write_text_atomic
 from sim.checks.bearing import (
     Bearing,
     bearing_from_table,
@@ -54,6 +53,7 @@ from sim.checks.bearing import (
     static_safety,
 )
 from sim.checks.contact import contact_modulus_pa, line_contact, line_contact_from_radius
+from sim.checks.materials import Material, get_material
 from sim.checks.reducer import (
     COMMON_SPEC,
     CheckSettings,
@@ -64,10 +64,10 @@ from sim.checks.reducer import (
     max_speed_rad_s,
 )
 from sim.checks.report import Limit
-from sim.config import Field, validate
-from sim.errors import InputError
-from sim.materials import Material, get_material
-from sim.spectra import equivalent_torque_nm, mean_abs_speed_rad_s
+from sim.core.atomic import write_text_atomic
+from sim.core.config import Field, validate
+from sim.core.errors import InputError
+from sim.loads.spectra import equivalent_torque_nm, mean_abs_speed_rad_s
 
 # ---- geometry (pure functions of floats) --------------------------------------------------
 

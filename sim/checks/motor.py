@@ -48,8 +48,8 @@ from sim.checks.supply import (
     battery_current_a,
     bus_power_w,
 )
-from sim.config import Field, load_toml, validate
-from sim.errors import InputError
+from sim.core.config import Field, load_toml, validate
+from sim.core.errors import InputError
 from sim.record import RunRecord, open_record
 
 SPEED_CONSTANT_VOLTAGES = ("line_to_line_peak", "line_to_line_rms")
@@ -616,7 +616,7 @@ def simulated_drive_effects(rec: RunRecord) -> tuple[bool, bool]:
     rotors = drive.get("rotor_inertia", "off") != "off"
     losses = False
     if drive.get("losses", True):
-        from sim.model import model_from_data
+        from sim.robot.model import model_from_data
 
         acts = model_from_data(tomllib.loads(str(rec.attrs["model_toml"])),
                                str(rec.path)).actuators.values()
@@ -984,7 +984,7 @@ def _usage_entries(source: Any) -> list[tuple[str, float]]:
     if isinstance(source, str | Path):
         p = Path(source)
         if p.suffix.lower() == ".toml":
-            from sim.mix import resolve_usage
+            from sim.loads.mix import resolve_usage
 
             return [(str(e.path), e.hours_per_day) for e in resolve_usage(p).entries
                     if e.kind == "duty"]

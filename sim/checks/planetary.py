@@ -33,6 +33,7 @@ from sim.checks.bearing import (
 )
 from sim.checks.contact import line_contact
 from sim.checks.gear import PROFILES, dynamic_factor, lewis_bending_stress_pa
+from sim.checks.materials import Material, get_material
 from sim.checks.reducer import (
     COMMON_SPEC,
     CheckSettings,
@@ -43,10 +44,9 @@ from sim.checks.reducer import (
     max_speed_rad_s,
 )
 from sim.checks.report import Limit
-from sim.config import Field, validate
-from sim.errors import InputError
-from sim.materials import Material, get_material
-from sim.spectra import equivalent_torque_nm, mean_abs_speed_rad_s
+from sim.core.config import Field, validate
+from sim.core.errors import InputError
+from sim.loads.spectra import equivalent_torque_nm, mean_abs_speed_rad_s
 
 
 def planetary_ratio(sun_teeth: int, ring_teeth: int) -> float:

@@ -2,7 +2,7 @@
 
 Any reducer by its ratings (kind ``"rated"``), or a home-made stage from its geometry (kinds
 ``"cycloidal"``, ``"planetary"``, ``"belt"``, in their own modules), is checked against a
-joint's :class:`sim.spectra.JointSpectrum`. Torques and speeds are at the reducer OUTPUT (the
+joint's :class:`sim.loads.spectra.JointSpectrum`. Torques and speeds are at the reducer OUTPUT (the
 joint), SI units.
 
 Rated life (the rating-point form of Palmgren's law, ISO 281 / Shigley ch. 11 applied to a
@@ -31,9 +31,9 @@ from typing import Any
 import numpy as np
 
 from sim.checks.report import Limit, Section, section_from_limits
-from sim.config import Field, load_toml, validate
-from sim.errors import InputError
-from sim.spectra import JointSpectrum, equivalent_torque_nm, mean_abs_speed_rad_s
+from sim.core.config import Field, load_toml, validate
+from sim.core.errors import InputError
+from sim.loads.spectra import JointSpectrum, equivalent_torque_nm, mean_abs_speed_rad_s
 
 KINDS = ("rated", "cycloidal", "planetary", "belt")
 

@@ -33,7 +33,7 @@ from typing import Any
 
 import numpy as np
 
-from sim.config import Field, validate
+from sim.core.config import Field, validate
 
 CURRENT_CONVENTIONS = ("dc_equivalent", "phase_peak", "phase_rms", "power_invariant")
 MODULATIONS = ("svpwm", "six_step", "sinusoidal")

@@ -1,0 +1,4 @@
+"""The command line, a thin skin over the library: :mod:`.cli` dispatches ``gaitload <command>``
+to ``sim.commands.<command>``; each command parses its arguments, calls the library and formats
+the result. Nothing in the library imports this package.
+"""

@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
+from sim.checks.drivetrain_file import Drivetrain, load_drivetrain
 from sim.checks.reducer import (
     NOT_MODELLED,
     CheckSettings,
@@ -33,16 +34,15 @@ from sim.checks.report import (
     render_table,
     to_json,
 )
-from sim.drivetrain import Drivetrain, load_drivetrain
-from sim.errors import InputError
-from sim.mix import resolve_usage
-from sim.record import open_record
-from sim.spectra import (
+from sim.core.errors import InputError
+from sim.loads.mix import resolve_usage
+from sim.loads.spectra import (
     load_series_name,
     series_unavailable_reason,
     spectrum_from_record,
     usage_spectra,
 )
+from sim.record import open_record
 
 HELP = "check reducers, motors and supply against the spectra"
 
@@ -214,7 +214,7 @@ def add_motor_checks(report: CheckReport, drivetrain: Drivetrain, duty: Path,
 
 def write_plots(report: CheckReport, drivetrain: Drivetrain, out_dir: Path) -> list[Path]:
     from sim.checks.cycloid import CycloidStage, write_profile_csv, write_profile_svg
-    from sim.checks.plots import plot_utilisation
+    from sim.figures.check import plot_utilisation
 
     written = [plot_utilisation(report, out_dir / "reducer_utilisation.svg")]
     seen: set[str] = set()
@@ -242,7 +242,7 @@ def execute(args: argparse.Namespace) -> int:
     if args.plot:
         write_plots(report, drivetrain, Path(args.plot))
         if mrep is not None:
-            from sim.checks.motor_plots import plot_all
+            from sim.figures.motor import plot_all
 
             plot_all(mrep, Path(args.plot))
     if args.json:

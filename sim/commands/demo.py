@@ -12,7 +12,7 @@ import json
 import shlex
 from pathlib import Path
 
-from sim.errors import InputError
+from sim.core.errors import InputError
 
 HELP = "run the demo set on the invented demo robot"
 
@@ -51,10 +51,10 @@ def _say(argv: list[str]) -> None:
 
 
 def execute(args: argparse.Namespace) -> int:
-    from sim.cli import main
+    from sim.commands.cli import main
     from sim.commands.model import write_atomic
-    from sim.runner import run
-    from sim.scenario import load_scenario
+    from sim.engine.runner import run
+    from sim.scenario.scenario_file import load_scenario
 
     scen_dir = ROOT / "scenarios"
     if not scen_dir.is_dir():

@@ -12,11 +12,11 @@ from typing import Any
 
 import numpy as np
 
-from sim.atomic import write_text_atomic
-from sim.errors import InputError
-from sim.mix import UsageMix, mix_of_records, resolve_usage
-from sim.rainflow import BasquinCurve
-from sim.spectra import (
+from sim.core.atomic import write_text_atomic
+from sim.core.errors import InputError
+from sim.loads.mix import UsageMix, mix_of_records, resolve_usage
+from sim.loads.rainflow import BasquinCurve
+from sim.loads.spectra import (
     DEFAULT_EXPONENTS,
     DEFAULT_HOLD_SPEED_RAD_S,
     DEFAULT_HOLD_TORQUE_NM,
@@ -92,7 +92,7 @@ def _csv_text(header: list[str], rows: list[list[Any]]) -> str:
 def write_csv(report: LoadsReport, directory: str | Path) -> list[Path]:
     """``<joint>.csv`` (time at level per non-empty bin), ``<joint>_rainflow.csv`` (cycle
     matrix, when series exist) and ``summary.csv``; returns the paths written. Counts the
-    cycle matrices first if the report lacks them (:func:`sim.spectra.with_cycle_matrices`)."""
+    cycle matrices first if the report lacks them (:func:`sim.loads.spectra.with_cycle_matrices`)."""
     d = Path(directory)
     out = []
     report = with_cycle_matrices(report)
@@ -143,7 +143,7 @@ def write_csv(report: LoadsReport, directory: str | Path) -> list[Path]:
 
 
 def write_plots(report: LoadsReport, directory: str | Path) -> list[Path]:
-    from sim.plots import plot_load_duration, plot_rainflow_matrix, plot_time_at_level
+    from sim.figures.loads import plot_load_duration, plot_rainflow_matrix, plot_time_at_level
 
     d = Path(directory)
     out = []

@@ -7,10 +7,10 @@ import json
 from pathlib import Path
 from typing import Any
 
-from sim.atomic import write_text_atomic
-from sim.config import parse_override
-from sim.model import load_model
-from sim.urdf import build_urdf
+from sim.core.atomic import write_text_atomic
+from sim.core.config import parse_override
+from sim.robot.model import load_model
+from sim.robot.urdf import build_urdf
 
 HELP = "check a robot model file and write its URDF"
 
@@ -24,7 +24,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def write_atomic(path: str | Path, text: str) -> Path:
-    """Write ``text`` to ``path`` atomically (see :mod:`sim.atomic`)."""
+    """Write ``text`` to ``path`` atomically (see :mod:`sim.core.atomic`)."""
     return write_text_atomic(path, text)
 
 
@@ -34,10 +34,10 @@ def execute(args: argparse.Namespace) -> int:
     info: dict[str, Any] = {"model": model.name, "total_mass_kg": model.total_mass_kg,
                             "peak_torque_nm": {k: model.actuators[f"fl_{k}"].peak_torque_nm
                                                for k in ("abad", "hip", "knee")}}
-    from sim.backdrive import report
-    from sim.gait import stance_angles
+    from sim.drive.backdrive import report
+    from sim.scenario.segments import stance_angles
 
-    info["backdrive"] = report(model, stance_angles(model))  # sim/backdrive.py
+    info["backdrive"] = report(model, stance_angles(model))  # sim/drive/backdrive.py
     if args.urdf:
         write_atomic(args.urdf, build_urdf(model))
         info["urdf"] = str(args.urdf)

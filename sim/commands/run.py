@@ -32,10 +32,10 @@ def format_table(result) -> str:
 
 
 def execute(args: argparse.Namespace) -> int:
-    from sim.scenario import load_scenario
+    from sim.scenario.scenario_file import load_scenario
 
     scn = load_scenario(args.scenario, args.overrides)  # bad input fails before any output
-    from sim.runner import run
+    from sim.engine.runner import run
 
     out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
     result = run(scn, out, progress=not args.json)

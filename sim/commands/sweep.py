@@ -30,8 +30,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def execute(args: argparse.Namespace) -> int:
-    from sim.errors import InputError
-    from sim.sweep import CAUTION, format_table, load_sweep, run_sweep, write_outputs
+    from sim.core.errors import InputError
+    from sim.sweeps.sweep import CAUTION, format_table, load_sweep, run_sweep, write_outputs
 
     if args.workers is not None and args.workers < 1:
         raise InputError("--workers", None, "a worker count of at least 1", args.workers)
@@ -44,7 +44,7 @@ def execute(args: argparse.Namespace) -> int:
     csv_path, json_path = write_outputs(result)
     plots: list[Path] = []
     if not args.no_plots:
-        from sim.sweep_plots import write_plots
+        from sim.figures.sweep import write_plots
 
         plots = write_plots(result, out / "plots")
     summary = result.summary()
@@ -54,7 +54,7 @@ def execute(args: argparse.Namespace) -> int:
         doc = dict(summary, results_csv=str(csv_path), summary_json=str(json_path),
                    plots=[str(p) for p in plots], cases_run=result.n_run,
                    cases_reused=result.n_reused)
-        from sim.sweep import _jsonable
+        from sim.sweeps.sweep import _jsonable
 
         print(json.dumps(_jsonable(doc), indent=2))
     else:

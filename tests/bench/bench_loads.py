@@ -51,7 +51,7 @@ def _contact(k: int):
 
 # the child reports its own peak (VmHWM, Linux): its rusage peak would include the parent's
 # resident memory at the time of exec, which here holds a record just read
-_CHILD = ("import sys\nfrom sim.cli import main\nrc = main(sys.argv[1:])\n"
+_CHILD = ("import sys\nfrom sim.commands.cli import main\nrc = main(sys.argv[1:])\n"
           "try:\n    hwm = [s for s in open('/proc/self/status') if s.startswith('VmHWM')]\n"
           "except OSError:\n    hwm = []\nsys.stderr.write(hwm[0] if hwm else '')\n"
           "sys.exit(rc)\n")

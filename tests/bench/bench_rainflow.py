@@ -16,7 +16,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 import rainflow
 
-from sim.rainflow import count_by_range, extract_cycles
+from sim.loads.rainflow import count_by_range, extract_cycles
 
 
 def main(n: int = 10_000_000) -> int:
@@ -35,7 +35,7 @@ def main(n: int = 10_000_000) -> int:
     ref_c = np.array([c for _, c in ref])
     same = np.array_equal(mine[0], ref_r) and np.array_equal(mine[1], ref_c)
     print(f"samples: {n}")
-    print(f"sim.rainflow : {t_mine:8.3f} s ({n / t_mine / 1e6:6.2f} M samples/s)")
+    print(f"sim.loads.rainflow : {t_mine:8.3f} s ({n / t_mine / 1e6:6.2f} M samples/s)")
     print(f"rainflow pkg : {t_ref:8.3f} s ({n / t_ref / 1e6:6.2f} M samples/s)")
     print(f"speed-up     : {t_ref / t_mine:8.1f} x   identical counts: {same} "
           f"({mine[0].size} distinct ranges, {mine[1].sum():.1f} cycles)")

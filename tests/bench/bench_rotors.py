@@ -20,8 +20,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from sim.runner import JOINT_INDICES, Engine, pb, run  # noqa: E402
-from sim.scenario import load_scenario  # noqa: E402
+from sim.engine.runner import JOINT_INDICES, Engine, pb, run  # noqa: E402
+from sim.scenario.scenario_file import load_scenario  # noqa: E402
 
 STAND = ROOT / "scenarios" / "stand.toml"
 
@@ -30,7 +30,7 @@ def bare_loop(mode: str, steps: int, iterations: int | None = None) -> float:
     scn = load_scenario(STAND, [f"drive.rotor_inertia={mode}"])
     eng = Engine(scn)
     try:
-        from sim.gait import stance_angles
+        from sim.scenario.segments import stance_angles
 
         q0 = stance_angles(scn.model)
         eng.place(q0, 0.3 + 5e-4)

@@ -2,7 +2,7 @@
 
 Run on demand (not in CI):  python tests/bench/bench_stand.py [--seconds 20]
 
-Prints steps per second of `sim.runner.run` on a stand (full-rate series, decimated series,
+Prints steps per second of `sim.engine.runner.run` on a stand (full-rate series, decimated series,
 histogram-only; the whole `run()` call and its stepping loop alone) and of bare
 `stepSimulation` of the same model in the same process (the time
 spent inside the engine step during an identical run), and the ratio of each to the bare
@@ -29,7 +29,7 @@ def bare_rate(seconds: float) -> float:
     The same model goes through exactly the same states as in the full loop, so the ratio
     isolates the cost of everything gaitload does around the engine step.
     """
-    import sim.runner as runner
+    import sim.engine.runner as runner
 
     real = runner.pb.stepSimulation
     spent = [0.0, 0]
@@ -53,8 +53,8 @@ def loop_rate(seconds: float, overrides: list[str], whole: bool = True) -> float
     """Steps per second of one stand run: of the whole ``run()`` call (engine start, URDF,
     record set-up and closing included) or, with ``whole=False``, of its stepping loop alone
     (recording and flushes inside the loop included; the runner's own clock)."""
-    from sim.runner import run
-    from sim.scenario import load_scenario
+    from sim.engine.runner import run
+    from sim.scenario.scenario_file import load_scenario
 
     scn = load_scenario(ROOT / "scenarios/stand.toml",
                         [f"segment.0.duration_s={seconds}", "record.start_s=0", *overrides])
@@ -70,8 +70,8 @@ MEM_CHILD = r"""
 import resource, sys, tempfile
 sys.path.insert(0, sys.argv[2])
 from pathlib import Path
-from sim.runner import run
-from sim.scenario import load_scenario
+from sim.engine.runner import run
+from sim.scenario.scenario_file import load_scenario
 scn = load_scenario(Path(sys.argv[2]) / "scenarios/stand.toml",
                     [f"segment.0.duration_s={sys.argv[1]}", "record.start_s=0",
                      "record.series=false"])

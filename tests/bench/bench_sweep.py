@@ -76,7 +76,7 @@ def main() -> int:
 
     from distributed import Client, LocalCluster
 
-    from sim.sweep import load_sweep, run_sweep, write_outputs
+    from sim.sweeps.sweep import load_sweep, run_sweep, write_outputs
 
     sweep = load_sweep(sweep_file(a.duration_s))
     print(f"16-case sweep, {a.duration_s:g} s stand per case, {os.cpu_count()} CPUs, "

@@ -21,8 +21,8 @@ sys.path.insert(0, str(ROOT))
 
 def bare_steps_per_s(scn, n: int = 5000) -> float:
     """Steps per second of bare stepping of the scenario's robot standing on its feet."""
-    from sim.gait import stance_angles
-    from sim.runner import Engine, pb
+    from sim.engine.runner import Engine, pb
+    from sim.scenario.segments import stance_angles
 
     eng = Engine(scn)
     try:
@@ -44,8 +44,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--duration", type=float, default=30.0, help="trot duration, s")
     ap.add_argument("--speed", type=float, default=0.6, help="trot speed, m/s")
     a = ap.parse_args(argv)
-    from sim.runner import run
-    from sim.scenario import load_scenario
+    from sim.engine.runner import run
+    from sim.scenario.scenario_file import load_scenario
 
     scn = load_scenario(ROOT / "scenarios" / "trot.toml",
                         [f"segment.1.duration_s={a.duration}", f"segment.1.speed_m_s={a.speed}",

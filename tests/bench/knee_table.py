@@ -23,8 +23,8 @@ RATIOS = (0.8, 1.0, 1.25)  # thigh / shank
 
 
 def peak_knee_nm(scenario: str, overrides: list[str], out: Path) -> float:
-    from sim.runner import run
-    from sim.scenario import load_scenario
+    from sim.engine.runner import run
+    from sim.scenario.scenario_file import load_scenario
 
     res = run(load_scenario(ROOT / "scenarios" / scenario, overrides), out)
     if res.status != "completed":
