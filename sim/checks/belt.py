@@ -26,7 +26,7 @@ from typing import Any
 
 from scipy.optimize import brentq
 
-from sim.checks.reducer import (
+from sim.checks.reducer_part import (
     COMMON_SPEC,
     CheckSettings,
     JointDuty,

@@ -54,7 +54,7 @@ from sim.checks.bearing import (
 )
 from sim.checks.contact import contact_modulus_pa, line_contact, line_contact_from_radius
 from sim.checks.materials import Material, get_material
-from sim.checks.reducer import (
+from sim.checks.reducer_part import (
     COMMON_SPEC,
     CheckSettings,
     JointDuty,

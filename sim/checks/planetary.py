@@ -34,7 +34,7 @@ from sim.checks.bearing import (
 from sim.checks.contact import line_contact
 from sim.checks.gear import PROFILES, dynamic_factor, lewis_bending_stress_pa
 from sim.checks.materials import Material, get_material
-from sim.checks.reducer import (
+from sim.checks.reducer_part import (
     COMMON_SPEC,
     CheckSettings,
     JointDuty,

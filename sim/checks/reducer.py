@@ -28,14 +28,26 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
+from sim.checks.belt import belt_from_table
+from sim.checks.cycloid import cycloid_from_table
+from sim.checks.planetary import planetary_from_table
+from sim.checks.reducer_part import (
+    COMMON_SPEC,
+    KINDS,
+    CheckSettings,
+    JointDuty,
+    ReducerPart,
+    common_values,
+    count_excursions,
+    max_speed_rad_s,
+)
 from sim.checks.report import Limit, Section, section_from_limits
 from sim.core.config import Field, load_toml, validate
 from sim.core.errors import InputError
 from sim.loads.spectra import JointSpectrum, equivalent_torque_nm, mean_abs_speed_rad_s
 
-KINDS = ("rated", "cycloidal", "planetary", "belt")
+__all__ = ["KINDS", "CheckSettings", "JointDuty", "ReducerPart", "check_reducer",
+           "count_excursions", "load_reducer_part", "max_speed_rad_s"]
 
 NOT_MODELLED = (
     "wear, lubrication, temperature and creep of printed parts",
@@ -43,95 +55,6 @@ NOT_MODELLED = (
     "tolerances, clearances and profile modifications (ideal load sharing)",
     "shaft, housing and fastener strength",
 )
-
-
-@dataclass(frozen=True)
-class CheckSettings:
-    """What the user asks for: life in hours of use, safety factor on material allowables
-    (and static bearing safety), and bearing reliability for the ISO 281 a1 factor."""
-
-    required_life_h: float = 1000.0
-    safety_factor: float = 1.5
-    reliability_pct: float = 90.0
-
-
-@dataclass(frozen=True)
-class JointDuty:
-    """A joint's duty: its spectrum and, when the time series is at hand, a counter of torque
-    excursions above a threshold (``count_events(threshold_nm) -> events in the duty``; for a
-    usage mix the weighted sum over its records, so possibly fractional)."""
-
-    spectrum: JointSpectrum
-    count_events: Callable[[float], float] | None = None
-
-    @property
-    def hours(self) -> float:
-        return self.spectrum.duration_s / 3600.0
-
-
-# ---- common part data ---------------------------------------------------------------------
-
-COMMON_SPEC: dict[str, Any] = {
-    "kind": Field(str, choices=KINDS, required=True),
-    "name": Field(str, "a short name", default=""),
-    "description": Field(str, default=""),
-    "ratio": Field(float, "output/input speed reduction, > 1 (computed for geometry kinds; "
-                   "if given it must match)", min=1.0, min_inclusive=False),
-    "efficiency_forward": Field(float, "motor driving the joint", required=True, min=0.0,
-                                max=1.0, min_inclusive=False),
-    "efficiency_back": Field(float, "joint driving the motor; 0 = self-locking", required=True,
-                             min=0.0, max=1.0),
-    "backlash_rad": Field(float, "at the output", default=0.0, min=0.0),
-    "input_inertia_kg_m2": Field(float, "reducer inertia referred to its input", required=True,
-                                 min=0.0),
-    "output_inertia_kg_m2": Field(float, "stage inertia turning with the output", default=0.0,
-                                  min=0.0),
-    "input_drag_torque_nm": Field(float, "no-load drag at the input", default=0.0, min=0.0),
-}
-
-
-@dataclass(frozen=True, kw_only=True)
-class ReducerPart:
-    """What every reducer part exposes (the motor check uses ratio, efficiencies, inertia)."""
-
-    file: str
-    kind: str
-    name: str
-    ratio: float
-    efficiency_forward: float
-    efficiency_back: float
-    backlash_rad: float = 0.0
-    input_inertia_kg_m2: float = 0.0
-    output_inertia_kg_m2: float = 0.0
-    input_drag_torque_nm: float = 0.0
-
-    def limits(self, duty: JointDuty, settings: CheckSettings) -> list[Limit]:
-        raise NotImplementedError  # each kind provides its own
-
-    def notes(self) -> list[str]:
-        return []
-
-    def extra_values(self, duty: JointDuty) -> dict[str, Any]:
-        """Kind-specific numbers for the report (geometry, loads); none by default."""
-        return {}
-
-
-def common_values(v: Mapping[str, Any], file: str) -> dict[str, Any]:
-    """The common keys of a validated part table, as keyword arguments of ReducerPart."""
-    return {"file": file, "kind": v["kind"], "name": v["name"] or Path(file).stem,
-            "efficiency_forward": v["efficiency_forward"],
-            "efficiency_back": v["efficiency_back"], "backlash_rad": v["backlash_rad"],
-            "input_inertia_kg_m2": v["input_inertia_kg_m2"],
-            "output_inertia_kg_m2": v["output_inertia_kg_m2"],
-            "input_drag_torque_nm": v["input_drag_torque_nm"]}
-
-
-def check_stated_ratio(v: Mapping[str, Any], computed: float, file: str) -> None:
-    """A geometry part may state its ratio for readability; it must match the geometry."""
-    if v.get("ratio") is not None and not math.isclose(v["ratio"], computed, rel_tol=1e-6):
-        raise InputError(file, "ratio", f"the ratio the geometry gives, {computed:.6g}",
-                         v["ratio"])
-
 
 # ---- rated-life formula and its inverse ---------------------------------------------------
 
@@ -152,30 +75,6 @@ def allowable_equivalent_torque_nm(rated_torque_nm: float, rated_speed_rad_s: fl
         return math.inf
     return rated_torque_nm * (rated_life_h_ * rated_speed_rad_s
                               / (life_h * mean_speed_rad_s)) ** (1.0 / exponent)
-
-
-def count_excursions(abs_torque_nm: np.ndarray, threshold_nm: float,
-                     was_above: bool = False) -> tuple[int, bool]:
-    """Number of times |T| rises above ``threshold_nm`` in a series ``[sample]``.
-
-    ``was_above`` carries the state across chunks; returns ``(count, last_above)``.
-    """
-    above = np.asarray(abs_torque_nm) > threshold_nm
-    if above.size == 0:
-        return 0, was_above
-    prev = np.concatenate(([was_above], above[:-1]))
-    return int(np.count_nonzero(above & ~prev)), bool(above[-1])
-
-
-def max_speed_rad_s(spec: JointSpectrum) -> float:
-    """Upper bound of |speed| over the occupied speed bins (rad/s)."""
-    occupied = spec.time_s.sum(axis=0) > 0
-    if not occupied.any():
-        return 0.0
-    e = np.abs(spec.speed_edges_rad_s)
-    upper = np.maximum(e[:-1], e[1:])
-    return float(upper[occupied].max())
-
 
 # ---- back-drivability ---------------------------------------------------------------------
 
@@ -285,21 +184,20 @@ def rated_from_table(data: Mapping[str, Any], file: str) -> RatedReducer:
 
 # ---- loading any part and checking a joint ------------------------------------------------
 
+FROM_TABLE: dict[str, Callable[[Mapping[str, Any], str], ReducerPart]] = {
+    "rated": rated_from_table,
+    "cycloidal": cycloid_from_table,
+    "planetary": planetary_from_table,
+    "belt": belt_from_table,
+}
+
+
 def reducer_from_table(data: Mapping[str, Any], file: str) -> ReducerPart:
     """Build the part of the kind named in ``data['kind']``."""
     kind = data.get("kind")
     if kind not in KINDS:
         raise InputError(file, "kind", "one of " + ", ".join(repr(k) for k in KINDS), kind)
-    if kind == "rated":
-        return rated_from_table(data, file)
-    if kind == "cycloidal":
-        from sim.checks.cycloid import cycloid_from_table
-        return cycloid_from_table(data, file)
-    if kind == "planetary":
-        from sim.checks.planetary import planetary_from_table
-        return planetary_from_table(data, file)
-    from sim.checks.belt import belt_from_table
-    return belt_from_table(data, file)
+    return FROM_TABLE[kind](data, file)
 
 
 def load_reducer_part(path: str | Path) -> ReducerPart:
@@ -318,8 +216,9 @@ REDUCER_COLUMNS: tuple[tuple[str, str, str], ...] = (
 
 
 def check_reducer(part: ReducerPart, duty: JointDuty,
-                  settings: CheckSettings = CheckSettings()) -> Section:
+                  settings: CheckSettings | None = None) -> Section:
     """Check one joint's reducer against its duty; the ``"reducer"`` section of the report."""
+    settings = settings if settings is not None else CheckSettings()
     spec = duty.spectrum
     limits = part.limits(duty, settings)
     lives = [lim.life_h for lim in limits if lim.life_h is not None]
