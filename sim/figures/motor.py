@@ -18,8 +18,8 @@ from sim.checks.motor import (
     current_limit_torque_nm,
     envelope_nm,
 )
-from sim.figures.loads import pyplot as _pyplot
-from sim.figures.loads import save_png
+from sim.figures.common import pyplot as _pyplot
+from sim.figures.common import save_png
 
 
 def _save(fig: Any, path: str | Path) -> Path:

@@ -30,7 +30,7 @@ def _figure(w_in: float, h_in: float) -> Any:
 
 
 def _save(fig: Any, path: Path) -> Path:
-    from sim.figures.loads import save_png
+    from sim.figures.common import save_png
 
     return save_png(fig, path)
 
