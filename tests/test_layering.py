@@ -102,7 +102,7 @@ def test_a_wrong_import_is_caught(tmp_path):
 
 
 def test_only_the_runner_imports_the_engine_and_only_record_touches_h5py():
-    assert _importers("pybullet") == {"sim/engine/runner.py"}
+    assert _importers("pybullet") == {"sim/engine/world.py"}
     assert _importers("h5py") == {"sim/record.py"}
 
 

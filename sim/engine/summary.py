@@ -1,0 +1,79 @@
+"""What a run gives back besides its record: the :class:`RunResult` (status, record path,
+per-joint figures, locomotion summary) and the :class:`RunSummary` accumulator of locomotion
+figures over the recorded span of a segment or a run.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+
+@dataclass
+class RunResult:
+    """Outcome of one run: status, where the record is, and per-joint figures."""
+
+    status: str
+    detail: str
+    record: Path
+    joints: dict[str, dict[str, float]] = field(default_factory=dict)
+    total_mass_kg: float = 0.0
+    steps_per_s: float = 0.0
+    # locomotion figures over the recorded span (see RunSummary); per segment in ``segments``
+    summary: dict[str, float | None] = field(default_factory=dict)
+    segments: list[dict[str, Any]] = field(default_factory=list)
+
+    def to_json(self) -> dict[str, Any]:
+        return {"status": self.status, "record": str(self.record), "joints": self.joints,
+                "summary": self.summary, "segments": self.segments}
+
+
+class RunSummary:
+    """Locomotion figures accumulated over the recorded span of one segment (or a run).
+
+    mean forward speed (along the body heading) achieved and commanded, body tilt RMS (angle
+    between body z and ground normal), slip distance of the stance feet (horizontal speed of
+    the material contact point, v_foot + omega x (-r n), integrated while in contact), positive
+    joint work (sum of max(tau qd, 0) dt over the joints) and the mechanical cost of transport
+    positive work / (m g d), d the net horizontal displacement of the base (the dimensionless
+    specific resistance of Gabrielli and von Karman, 1950, from memory, here with mechanical
+    joint work in place of the energy drawn).
+    """
+
+    def __init__(self) -> None:
+        self.time_s = 0.0
+        self.fwd = 0.0
+        self.cmd = 0.0
+        self.tilt2 = 0.0
+        self.slip_m = 0.0
+        self.work_j = 0.0
+        self.p0: list[float] | None = None
+        self.p1: list[float] | None = None
+
+    def add(self, other: RunSummary) -> None:
+        self.time_s += other.time_s
+        self.fwd += other.fwd
+        self.cmd += other.cmd
+        self.tilt2 += other.tilt2
+        self.slip_m += other.slip_m
+        self.work_j += other.work_j
+        if other.p0 is not None:
+            self.p0 = self.p0 or other.p0
+            self.p1 = other.p1
+
+    def figures(self, weight_n: float) -> dict[str, float | None]:
+        t = self.time_s
+        d = 0.0
+        if self.p0 is not None and self.p1 is not None:
+            d = math.hypot(self.p1[0] - self.p0[0], self.p1[1] - self.p0[1])
+        return {
+            "mean_forward_speed_m_s": self.fwd / t if t > 0 else None,
+            "commanded_forward_speed_m_s": self.cmd / t if t > 0 else None,
+            "tilt_rms_rad": math.sqrt(self.tilt2 / t) if t > 0 else None,
+            "slip_distance_m": self.slip_m,
+            "positive_work_j": self.work_j,
+            "distance_m": d,
+            "cost_of_transport": self.work_j / (weight_n * d) if d > 0.05 else None,
+        }
