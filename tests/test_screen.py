@@ -1,0 +1,117 @@
+"""The quality screen and the every-step moments a run writes into its record, against offline
+computations on the every-step series of the same run."""
+
+from __future__ import annotations
+
+import h5py
+import numpy as np
+import pytest
+from scipy import signal
+
+from sim import JOINT_NAMES
+from sim.engine.runner import run
+from sim.record import open_record
+from sim.scenario.scenario_file import load_scenario
+
+from .conftest import SCENARIOS
+
+# a short demo trot: 0.5 s stand, 2.5 s trot, the first 1.5 s left out
+TROT = ["segment.1.duration_s=2.5", "record.start_s=1.5"]
+# the light shank's damping far above the explicit-PD limit (ENGINE_NOTES P12: kd dt / I < ~2):
+# the knees chatter at the clamp, period two steps, and the robot still trots
+CHATTER = [*TROT, "control.kd_nm_s_rad.knee=10"]
+
+
+@pytest.fixture(scope="module")
+def trot_records(tmp_path_factory):
+    d = tmp_path_factory.mktemp("screen")
+    out = {}
+    for name, extra in (("dec1", []), ("dec10", ["record.decimation=10"]),
+                        ("chatter", CHATTER[len(TROT):])):
+        scn = load_scenario(SCENARIOS / "trot.toml", [*TROT, *extra,
+                                                      "record.life_exponents=[9.0]"])
+        res = run(scn, d / f"{name}.h5")
+        assert res.status == "completed", res.detail
+        out[name] = d / f"{name}.h5"
+    return out
+
+
+def test_high_frequency_share_matches_sosfiltfilt_of_the_every_step_series(trot_records):
+    # reference: scipy.signal.butter(4, 100 Hz) + sosfiltfilt over the whole every-step load
+    # torque series of the run; the record's share is measured block by block during the run.
+    # Tolerance 1e-9 relative (the block-wise filter agrees with the whole-series one to
+    # rounding; see sim/core/streams.py)
+    for name in ("dec1", "chatter"):
+        with h5py.File(trot_records[name]) as f:
+            dt = float(f.attrs["time_step_s"])
+            assert float(f["quality"].attrs["chatter_cutoff_hz"]) == 100.0
+            sos = signal.butter(4, 100.0, fs=1.0 / dt, output="sos")
+            for j in JOINT_NAMES:
+                x = f[f"joints/{j}/torque_nm"][:]
+                r = x - signal.sosfiltfilt(sos, x)
+                ref = np.sqrt((r * r).sum() / (x * x).sum())
+                got = float(f[f"quality/{j}"].attrs["torque_high_frequency_share"])
+                assert got == pytest.approx(ref, rel=1e-9), (name, j)
+
+
+def test_reversals_match_a_count_on_the_every_step_series(trot_records):
+    with h5py.File(trot_records["dec1"]) as f:
+        dur = float(f[f"summary/{JOINT_NAMES[0]}"].attrs["duration_s"])
+        for j in JOINT_NAMES:
+            x = f[f"joints/{j}/torque_nm"][:]
+            band = 1e-6 * float(np.abs(f[f"histograms/{j}/torque_edges_nm"][:]).max())
+            d = np.diff(x)
+            s = np.sign(d[np.abs(d) > band])
+            ref = np.count_nonzero(s[1:] != s[:-1]) / dur
+            assert float(f[f"quality/{j}"].attrs["torque_reversals_per_s"]) == pytest.approx(
+                ref, rel=1e-12)
+
+
+def test_power_sums_equal_sums_over_the_every_step_series(trot_records):
+    with open_record(trot_records["dec1"]) as rec:
+        dt = float(rec.attrs["time_step_s"])
+        for j in JOINT_NAMES:
+            sums = rec.power_sums(j)
+            assert sums is not None
+            powers, angle = sums
+            assert sorted(powers) == [3.0, 3.333, 10.0 / 3.0, 9.0]
+            t = np.abs(rec.read(f"joints/{j}/torque_nm"))
+            w = np.abs(rec.read(f"joints/{j}/speed_rad_s"))
+            assert angle == pytest.approx((w * dt).sum(), rel=1e-12)
+            for p, v in powers.items():
+                assert v == pytest.approx((t ** p * w * dt).sum(), rel=1e-12)
+
+
+def test_decimated_record_keeps_the_duty_series_every_step(trot_records):
+    # the simulation does not depend on the decimation: the every-step duty series of the
+    # decimated record are the series of the undecimated one, bit for bit
+    with h5py.File(trot_records["dec1"]) as a, h5py.File(trot_records["dec10"]) as b:
+        assert "steps" not in a
+        assert b["time_s"].shape[0] == -(-a["time_s"].shape[0] // 10)
+        assert float(b["steps"].attrs["period_s"]) == float(a.attrs["time_step_s"])
+        for j in JOINT_NAMES:
+            for q in ("torque_nm", "speed_rad_s"):
+                np.testing.assert_array_equal(b[f"steps/{j}/{q}"][:], a[f"joints/{j}/{q}"][:])
+            np.testing.assert_array_equal(b[f"joints/{j}/torque_nm"][:],
+                                          a[f"joints/{j}/torque_nm"][::10])
+        for key in ("slip_m", "touchdowns", "height_error_mean_m"):
+            assert b["quality"].attrs[key] == a["quality"].attrs[key]
+    with open_record(trot_records["dec10"]) as rec:
+        assert rec.duty_name("fl_knee", "torque_nm") == "steps/fl_knee/torque_nm"
+        assert rec.duty_period_s == rec.attrs["time_step_s"]
+        assert rec.duty_unavailable_reason() is None
+
+
+def test_the_demo_trot_and_the_chattering_trot_differ_in_the_screen(trot_records):
+    # the measurements themselves (the thresholds are tested with sim.loads.quality)
+    with h5py.File(trot_records["dec1"]) as good, h5py.File(trot_records["chatter"]) as bad:
+        for j in ("fl_knee", "fr_knee", "hl_knee", "hr_knee"):
+            assert float(good[f"quality/{j}"].attrs["torque_high_frequency_share"]) < 0.15
+            assert float(bad[f"quality/{j}"].attrs["torque_high_frequency_share"]) > 0.5
+            # period-two chatter reverses the torque change at nearly every step
+            assert float(bad[f"quality/{j}"].attrs["torque_reversals_per_s"]) > 900.0
+        q = good["quality"].attrs
+        assert q["touchdowns"] > 0 and q["stance_travel_m"] > 0.5
+        assert abs(q["height_error_mean_m"]) < 0.01
+        assert q["recorded_s"] == pytest.approx(1.5)
+        assert good.attrs["planned_s"] == pytest.approx(3.0)
