@@ -42,11 +42,12 @@ Layout (format_version 2; documented for users in README.md, "Run record"):
         (stance-foot slip and the base travel under the stance feet, summed over feet);
         touchdowns, bounces (lift-off within bounce_window_s of a touchdown); height_screened_s
         and height_error_mean_m / _rms_m / _max_m (base height against the plan in segments
-        that hold a height: stand, walk, trot, bound, pronk)
+        that hold a height: stand, walk, trot, bound, pronk), height_plan_mean_m (the plan)
     /quality/<joint>                        attributes: torque_reversals_per_s (reversals of
         the sign of the step-to-step change of the load torque, changes below 1e-6 of the
         torque bin range left out), torque_high_frequency_share (RMS of the load torque less
-        its zero-phase low-pass at chatter_cutoff_hz over its RMS; NaN if too short to filter)
+        its zero-phase low-pass at chatter_cutoff_hz over its RMS, over all steps but the
+        first and last 0.05 s; NaN if the record is too short)
 
 Sample ``i`` (time ``t_i``): joint and base state at the start of the engine step from ``t_i``
 to ``t_i + dt``; torques, contact forces and contact flags over that step.
@@ -274,8 +275,9 @@ class RecordWriter:
         shares = None if self._hf is None else self._hf.shares()
         g = f.require_group("quality")
         g.attrs["chatter_cutoff_hz"] = np.nan if self._hf is None else self._hf.cutoff_hz
-        g.attrs["chatter_filter"] = ("zero-phase Butterworth low-pass, order 4 forward and "
-                                     "backward (scipy.signal.sosfiltfilt), overlapping blocks")
+        g.attrs["chatter_filter"] = ("centred (zero-phase) windowed-sinc FIR low-pass, Hamming "
+                                     "window, 2 x 0.05 s long; the first and last 0.05 s left "
+                                     "out (sim.core.streams.HighFrequencyShare)")
         g.attrs["reversal_deadband_share_of_peak"] = 1e-6
         for k, j in enumerate(self.joint_names):
             g = f.require_group(f"histograms/{j}")

@@ -32,23 +32,30 @@ def _series(n, dt, seed=1):
 
 
 @pytest.mark.parametrize("dt", [1e-3, 5e-4])
-def test_high_frequency_share_equals_sosfiltfilt_of_the_whole_series(dt):
-    # reference: scipy.signal.butter + sosfiltfilt (default padding) on the whole series at once
+def test_high_frequency_share_equals_a_whole_series_fir(dt):
+    # reference: scipy.signal.firwin (windowed-sinc design, Hamming window) and
+    # scipy.signal.convolve over the whole series at once ('valid': the samples with a full
+    # window on both sides)
     x = _series(23456, dt)
     h = HighFrequencyShare(3, dt, 100.0)
     _feed(h, x)
     got = h.shares()
-    sos = signal.butter(4, 100.0, fs=1.0 / dt, output="sos")
-    y = signal.sosfiltfilt(sos, x, axis=0)
-    ref = np.sqrt(((x - y) ** 2).sum(axis=0) / (x ** 2).sum(axis=0))
+    k = h.half_length
+    taps = signal.firwin(2 * k + 1, 100.0, fs=1.0 / dt, window="hamming")
+    np.testing.assert_allclose(h.taps, taps, rtol=0, atol=1e-15)
+    assert h.samples == x.shape[0] - 2 * k
+    ref = []
+    for c in range(3):
+        r = x[k:-k, c] - signal.convolve(x[:, c], taps, mode="valid")
+        ref.append(np.sqrt((r * r).sum() / (x[k:-k, c] ** 2).sum()))
     assert got is not None
     np.testing.assert_allclose(got, ref, rtol=1e-12)
 
 
 def test_high_frequency_share_of_two_tones():
     # A sin(3 Hz) + B sin(300 Hz): the share above 100 Hz is B / sqrt(A^2 + B^2) (Parseval);
-    # the forward-backward Butterworth passes |H|^2 = 1 / (1 + (f/fc)^(2n)) (Butterworth's
-    # magnitude response), 1 - 2e-15 at 3 Hz and 1.5e-4 at 300 Hz: within 1e-3 of the ideal
+    # the FIR passes 3 Hz within its pass-band ripple (gain 1.0006, scipy.signal.freqz) and
+    # stops 300 Hz (gain 2.6e-4): within 2e-3 of the ideal
     dt, n = 1e-3, 30000
     t = np.arange(n) * dt
     a, b = 10.0, 2.0
@@ -57,12 +64,23 @@ def test_high_frequency_share_of_two_tones():
     _feed(h, x)
     got = h.shares()
     assert got is not None
-    assert got[0] == pytest.approx(b / math.hypot(a, b), rel=1e-3)
+    assert got[0] == pytest.approx(b / math.hypot(a, b), rel=2e-3)
+
+
+def test_a_slow_signal_leaves_almost_nothing_above_the_cut_off():
+    # zero phase: a causal low-pass would leave its lag in the residual (a few per cent of a
+    # 3 Hz signal at a 100 Hz cut-off); the centred FIR leaves its pass-band ripple only
+    dt, n = 1e-3, 20000
+    t = np.arange(n) * dt
+    h = HighFrequencyShare(1, dt, 100.0)
+    _feed(h, (20.0 * np.sin(2 * np.pi * 3 * t) + 5.0)[:, None])
+    got = h.shares()
+    assert got is not None and got[0] < 1e-3
 
 
 def test_high_frequency_share_of_a_too_short_series_is_not_measured():
     h = HighFrequencyShare(2, 1e-3, 100.0)
-    h.feed(np.ones((h.padlen, 2)))
+    h.feed(np.ones((2 * h.half_length, 2)))
     assert h.shares() is None
 
 

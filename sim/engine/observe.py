@@ -101,6 +101,7 @@ def make_observer(eng: Engine, foot_radius_m: float, events: dict[str, list[list
             acc.h_time_s += dtu
             acc.h_err_m_s += e * dtu
             acc.h_err2_m2_s += e * e * dtu
+            acc.h_plan_m_s += plan_z * dtu
             if abs(e) > acc.h_err_max_m:
                 acc.h_err_max_m = abs(e)
         if any(cont):

@@ -70,6 +70,7 @@ class RunSummary:
         self.h_err_m_s = 0.0
         self.h_err2_m2_s = 0.0
         self.h_err_max_m = 0.0
+        self.h_plan_m_s = 0.0
 
     def add(self, other: RunSummary) -> None:
         self.time_s += other.time_s
@@ -85,6 +86,7 @@ class RunSummary:
         self.h_err_m_s += other.h_err_m_s
         self.h_err2_m2_s += other.h_err2_m2_s
         self.h_err_max_m = max(self.h_err_max_m, other.h_err_max_m)
+        self.h_plan_m_s += other.h_plan_m_s
         if other.p0 is not None:
             self.p0 = self.p0 or other.p0
             self.p1 = other.p1
@@ -118,4 +120,5 @@ class RunSummary:
             "height_error_mean_m": self.h_err_m_s / ht if ht > 0 else 0.0,
             "height_error_rms_m": math.sqrt(self.h_err2_m2_s / ht) if ht > 0 else 0.0,
             "height_error_max_m": self.h_err_max_m,
+            "height_plan_mean_m": self.h_plan_m_s / ht if ht > 0 else 0.0,
         }
