@@ -32,20 +32,18 @@ from sim import LEGS
 from sim.commands.cli import main
 from sim.core.errors import InputError
 from sim.record import open_record
-from sim.sweeps.sweep import (
+from sim.sweeps.cases import resolve_cases
+from sim.sweeps.executors import run_sweep
+from sim.sweeps.metrics import evaluate_metric, parse_metric
+from sim.sweeps.providers import (
     PROVIDERS,
     CaseContext,
     MetricProvider,
-    evaluate_metric,
-    load_sweep,
-    pareto_front,
-    parse_metric,
     register_cli_provider,
     register_provider,
-    resolve_cases,
-    run_sweep,
-    write_outputs,
 )
+from sim.sweeps.ranking import pareto_front, write_outputs
+from sim.sweeps.spec import load_sweep
 
 from .conftest import MODELS, SCENARIOS
 
@@ -313,7 +311,7 @@ def test_cli_provider_runs_a_command_in_process_and_reads_its_json(monkeypatch, 
 
 
 def test_model_provider_gives_reflected_inertia_n_squared_j():
-    from sim.sweeps.sweep import _model_provider
+    from sim.sweeps.providers import _model_provider
 
     text = (MODELS / "fennec.toml").read_text()
     doc = _model_provider(CaseContext(Path("x"), {}, "", text, None))
