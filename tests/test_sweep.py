@@ -319,6 +319,17 @@ def test_model_provider_gives_reflected_inertia_n_squared_j():
     assert ev == pytest.approx(9 ** 2 * 6.5e-5, rel=1e-12)  # N^2 J_rotor, N = 9
 
 
+def test_the_fork_server_preloads_modules_that_exist():
+    # multiprocessing skips a preload name that does not import without a word
+    import importlib
+
+    from sim.sweeps.executors import FORKSERVER_PRELOAD
+
+    assert FORKSERVER_PRELOAD
+    for name in FORKSERVER_PRELOAD:
+        assert importlib.import_module(name).__name__ == name
+
+
 # --- grids and samples -----------------------------------------------------------------------
 
 def test_grid_is_the_cartesian_product_in_file_order(tmp_path):

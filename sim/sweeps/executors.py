@@ -21,6 +21,12 @@ from sim.sweeps.cases import load_case_result, resolve_cases, run_case, store_ca
 from sim.sweeps.ranking import SweepResult, case_result, rank_cases
 from sim.sweeps.spec import Sweep
 
+# the fork server imports the engine and the case code once; workers forked from it start at
+# once and together, so the first cases do not queue behind one worker's imports. Module names
+# (a name that does not import is skipped silently by multiprocessing; tests/test_sweep.py
+# imports each); run_case's module imports the metrics and providers it needs.
+FORKSERVER_PRELOAD: tuple[str, ...] = (run_case.__module__, "sim.engine.runner")
+
 
 def available_cpus() -> int:
     """CPUs this process may use."""
@@ -36,10 +42,7 @@ def _mp_context() -> Any:
     if "forkserver" not in methods:
         return mp.get_context("spawn")
     ctx = mp.get_context("forkserver")
-    # the fork server imports the engine and the case code once; workers forked from it start
-    # at once and together, so the first cases do not queue behind one worker's imports
-    # (run_case's module imports the metrics and providers it needs)
-    ctx.set_forkserver_preload([run_case.__module__, "sim.engine.runner"])
+    ctx.set_forkserver_preload(list(FORKSERVER_PRELOAD))
     return ctx
 
 
