@@ -3,6 +3,8 @@
 gives per-joint verdicts with their limits and margins: reducer life and peak (:mod:`.reducer`
 and its kinds :mod:`.cycloid`, :mod:`.planetary`, :mod:`.belt`, with :mod:`.bearing`,
 :mod:`.contact`, :mod:`.gear`, :mod:`.materials`), motor envelope and winding temperature
-(:mod:`.motor`, :mod:`.thermal`), battery current and energy (:mod:`.supply`), gathered in the
-report model (:mod:`.report`). Never imports the engine.
+(:mod:`.motor`: the check; the part and its envelope :mod:`.motor_part`, a record as motor
+operating points :mod:`.motor_duty`, winding temperature :mod:`.motor_heating` with
+:mod:`.thermal`, one record's result :mod:`.motor_record`), battery current and energy
+(:mod:`.supply`), gathered in the report model (:mod:`.report`). Never imports the engine.
 """

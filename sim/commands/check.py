@@ -165,7 +165,8 @@ def motor_duty_source(path: Path) -> str | list[tuple[str, float]]:
 def add_motor_checks(report: CheckReport, drivetrain: Drivetrain, duty: Path,
                      mission_h: float | None, allow_failed: bool):
     """Add a ``motor`` section per joint with a motor, and the whole-robot supply figures."""
-    from sim.checks.motor import check_motors, load_motor_part
+    from sim.checks.motor import check_motors
+    from sim.checks.motor_part import load_motor_part
     from sim.checks.supply import load_supply
 
     with_motor = {j: d for j, d in drivetrain.joints.items()
