@@ -36,12 +36,8 @@ from sim.checks.report import (
 )
 from sim.core.errors import InputError
 from sim.loads.mix import resolve_usage
-from sim.loads.spectra import (
-    load_series_name,
-    series_unavailable_reason,
-    spectrum_from_record,
-    usage_spectra,
-)
+from sim.loads.series import load_series_name, series_unavailable_reason
+from sim.loads.spectra import spectrum_from_record, usage_spectra
 from sim.record import open_record
 
 HELP = "check reducers, motors and supply against the spectra"

@@ -16,16 +16,15 @@ from sim.core.atomic import write_text_atomic
 from sim.core.errors import InputError
 from sim.loads.mix import UsageMix, mix_of_records, resolve_usage
 from sim.loads.rainflow import BasquinCurve
-from sim.loads.spectra import (
+from sim.loads.report import (
     DEFAULT_EXPONENTS,
-    DEFAULT_HOLD_SPEED_RAD_S,
-    DEFAULT_HOLD_TORQUE_NM,
     JointLoads,
     LoadsReport,
     duty_loads,
-    parse_exponent,
     with_cycle_matrices,
 )
+from sim.loads.series import DEFAULT_HOLD_SPEED_RAD_S, DEFAULT_HOLD_TORQUE_NM
+from sim.loads.spectra import parse_exponent
 
 HELP = "reduce run records to duty spectra"
 
@@ -92,7 +91,7 @@ def _csv_text(header: list[str], rows: list[list[Any]]) -> str:
 def write_csv(report: LoadsReport, directory: str | Path) -> list[Path]:
     """``<joint>.csv`` (time at level per non-empty bin), ``<joint>_rainflow.csv`` (cycle
     matrix, when series exist) and ``summary.csv``; returns the paths written. Counts the
-    cycle matrices first if the report lacks them (:func:`sim.loads.spectra.with_cycle_matrices`)."""
+    cycle matrices first if the report lacks them (:func:`sim.loads.report.with_cycle_matrices`)."""
     d = Path(directory)
     out = []
     report = with_cycle_matrices(report)
