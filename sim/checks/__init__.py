@@ -6,5 +6,7 @@ and its kinds :mod:`.cycloid`, :mod:`.planetary`, :mod:`.belt`, with :mod:`.bear
 (:mod:`.motor`: the check; the part and its envelope :mod:`.motor_part`, a record as motor
 operating points :mod:`.motor_duty`, winding temperature :mod:`.motor_heating` with
 :mod:`.thermal`, one record's result :mod:`.motor_record`), battery current and energy
-(:mod:`.supply`), gathered in the report model (:mod:`.report`). Never imports the engine.
+(:mod:`.supply`), gathered in the report model (:mod:`.report`). The duties come from a record
+or a usage mix (:mod:`.duty_input`); :mod:`.drivetrain_check` runs every check of a drivetrain
+(``gaitload check`` as a function). Never imports the engine.
 """

@@ -11,12 +11,15 @@ first pass; :func:`with_cycle_matrices` counts the matrix in a second pass over 
 from __future__ import annotations
 
 import dataclasses
+import json
 import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
-from sim.loads.mix import UsageMix
+from sim.core.errors import InputError
+from sim.loads.mix import UsageMix, usage_from_inputs
 from sim.loads.rainflow import (
     BasquinCurve,
     CycleMatrix,
@@ -180,6 +183,11 @@ class LoadsReport:
             "notes": list(self.notes),
         }
 
+    def to_json(self) -> str:
+        """The JSON text of ``gaitload loads --json`` (:meth:`to_dict`, indent 2, a final
+        newline)."""
+        return json.dumps(self.to_dict(), indent=2, sort_keys=False) + "\n"
+
 
 CAUTION = ("Results are estimates from simulated duty: manufacturer ratings, local codes and "
            "licensed engineering practice take precedence. Not modelled: wear, lubrication, "
@@ -279,3 +287,31 @@ def with_cycle_matrices(report: LoadsReport, bins: int = CYCLE_MATRIX_BINS,
         r = dataclasses.replace(jl.series.rainflow, matrix=combine_matrices(parts[j]))
         joints[j] = dataclasses.replace(jl, series=dataclasses.replace(jl.series, rainflow=r))
     return dataclasses.replace(report, joints=joints)
+
+
+def loads_report(records: Sequence[str | Path] = (), mix: str | Path | None = None,
+                 joints: str | Iterable[str] | None = None,
+                 exponents: Sequence[str] = DEFAULT_EXPONENTS,
+                 levels_nm: Sequence[float] | None = None,
+                 hold_speed_rad_s: float = DEFAULT_HOLD_SPEED_RAD_S,
+                 hold_torque_nm: float = DEFAULT_HOLD_TORQUE_NM,
+                 sn: Sequence[float] | None = None, sn_cutoff_nm: float = 0.0,
+                 allow_failed: bool = False) -> LoadsReport:
+    """What ``gaitload loads`` reports, from its inputs: run records or a usage mix
+    (:func:`sim.loads.mix.usage_from_inputs`), the exponents of the equivalent torque, the
+    exceedance levels, the hold thresholds and an optional Basquin S-N line ``sn = (range_nm,
+    cycles, k)`` with its cut-off range for Miner damage (:func:`duty_loads`).
+
+    Every bad input is an :class:`~sim.core.errors.InputError`, raised before any record is
+    read; errors name the command's options, which these arguments stand for.
+    """
+    for e in exponents:
+        parse_exponent(e)
+    if hold_speed_rad_s < 0 or hold_torque_nm < 0:
+        raise InputError("--hold-speed/--hold-torque", None, "numbers >= 0")
+    curve = None
+    if sn:
+        curve = BasquinCurve(sn[0], sn[1], sn[2], sn_cutoff_nm)
+    usage = usage_from_inputs(records, mix)
+    return duty_loads(usage, joints, exponents, levels_nm, hold_speed_rad_s, hold_torque_nm,
+                      curve, allow_failed)
