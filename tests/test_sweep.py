@@ -30,18 +30,13 @@ from hypothesis import strategies as st
 
 from sim import LEGS
 from sim.commands.cli import main
+from sim.commands.cli_provider import register_cli_provider
 from sim.core.errors import InputError
 from sim.record import open_record
 from sim.sweeps.cases import resolve_cases
 from sim.sweeps.executors import run_sweep
 from sim.sweeps.metrics import evaluate_metric, parse_metric
-from sim.sweeps.providers import (
-    PROVIDERS,
-    CaseContext,
-    MetricProvider,
-    register_cli_provider,
-    register_provider,
-)
+from sim.sweeps.providers import PROVIDERS, CaseContext, MetricProvider, register_provider
 from sim.sweeps.ranking import pareto_front, write_outputs
 from sim.sweeps.spec import load_sweep
 

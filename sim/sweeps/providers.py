@@ -7,13 +7,14 @@ of its document (a *schema*) so metrics are validated before any case runs.
 
 Built in: ``run.`` (the run summary, ``RunResult.to_json()``), ``model.`` (figures of the
 resolved actuators), ``backdrive.`` (back-drive figures of the resolved model), and ``loads.``
-/ ``check.`` (the JSON of ``gaitload loads`` / ``gaitload check``, called in-process). Add more
-with :func:`register_provider` or :func:`register_cli_provider`.
+/ ``check.`` (the JSON of ``gaitload loads`` / ``gaitload check``, from the library functions
+behind those commands: :func:`sim.loads.report.loads_report`,
+:func:`sim.checks.drivetrain_check.check_drivetrain`). Add more with :func:`register_provider`
+(or, for a command that prints JSON, :func:`sim.commands.cli_provider.register_cli_provider`).
 """
 
 from __future__ import annotations
 
-import io
 import json
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
@@ -127,55 +128,35 @@ MODEL_SCHEMA: dict[str, Any] = {
 }
 
 
-def register_cli_provider(name: str, argv: Callable[[CaseContext], list[str]],
-                          schema: Mapping[str, Any], command: str, doc: str = "",
-                          needs_drivetrain: bool = False,
-                          ok_codes: tuple[int, ...] = (0,)) -> MetricProvider:
-    """Register a provider that runs ``gaitload <command> ... --json`` in-process.
+def _json_document(name: str, text: Callable[[], str]) -> Mapping[str, Any]:
+    """The JSON object printed by a command's ``--json``, parsed back: the same plain JSON
+    types (non-finite numbers as the command writes them) as a reader of that output gets.
+    Bad input is reported as the provider's error, which marks the case ``error``."""
+    try:
+        out = text()
+    except GaitloadError as exc:
+        raise GaitloadError(f"metric provider '{name}.': {exc}") from None
+    doc = json.loads(out)
+    if not isinstance(doc, dict):
+        raise GaitloadError(f"metric provider '{name}.': expected a JSON object")
+    return doc
 
-    ``argv(ctx)`` builds the argument list for :func:`sim.commands.cli.main` (it must include
-    ``--json``); stdout is captured and parsed as JSON. The provider is unavailable while the
-    module ``sim.commands.<command>`` does not exist, and a metric that needs it is then
-    rejected before any case runs, naming the metric.
-    """
-    module = f"sim.commands.{command}"
 
-    def available() -> str | None:
-        import importlib.util
+def _loads_provider(ctx: CaseContext) -> Mapping[str, Any]:
+    """``gaitload loads RECORD --json`` (defaults: exponents 3 and 3.333, no S-N line)."""
+    from sim.loads.report import loads_report
 
-        try:
-            found = importlib.util.find_spec(module) is not None
-        except (ImportError, ValueError):
-            found = False
-        return None if found else (f"the 'gaitload {command}' command, which this installation "
-                                   f"does not have (no module {module})")
+    return _json_document("loads", lambda: loads_report([str(ctx.record_path)]).to_json())
 
-    def produce(ctx: CaseContext) -> Mapping[str, Any]:
-        from contextlib import redirect_stderr, redirect_stdout
 
-        from sim.commands.cli import main
+def _check_provider(ctx: CaseContext) -> Mapping[str, Any]:
+    """``gaitload check RECORD --drivetrain FILE --json`` (default settings); a failed part
+    still gives its figures."""
+    from sim.checks.drivetrain_check import check_drivetrain
+    from sim.checks.report import to_json
 
-        why = available()
-        if why:
-            raise GaitloadError(f"metric provider '{name}.' needs {why}")
-        args = argv(ctx)
-        out, err = io.StringIO(), io.StringIO()
-        with redirect_stdout(out), redirect_stderr(err):
-            code = main(args)
-        if code not in ok_codes:
-            raise GaitloadError(f"metric provider '{name}.': 'gaitload {' '.join(args)}' exited "
-                                f"with {code}: {err.getvalue().strip()[-400:]}")
-        try:
-            doc = json.loads(out.getvalue())
-        except json.JSONDecodeError as exc:
-            raise GaitloadError(f"metric provider '{name}.': 'gaitload {command} --json' "
-                                f"printed no JSON ({exc})") from None
-        if not isinstance(doc, dict):
-            raise GaitloadError(f"metric provider '{name}.': expected a JSON object")
-        return doc
-
-    return register_provider(MetricProvider(name, produce, schema, doc, needs_drivetrain,
-                                            available))
+    return _json_document("check", lambda: to_json(
+        check_drivetrain(str(ctx.record_path), str(ctx.drivetrain)).report))
 
 
 # JSON shapes of the loads and check commands (documented interfaces; ANY levels are checked
@@ -196,12 +177,11 @@ register_provider(MetricProvider("run", _run_provider, RUN_SCHEMA,
                                  "the run summary (gaitload run --json) plus total_mass_kg"))
 register_provider(MetricProvider("model", _model_provider, MODEL_SCHEMA,
                                  "figures of the resolved actuators (no simulation needed)"))
-register_cli_provider("loads", lambda ctx: ["loads", str(ctx.record_path), "--json"],
-                      LOADS_SCHEMA, "loads", "duty spectra of the record (gaitload loads)")
-register_cli_provider("check", lambda ctx: ["check", str(ctx.record_path), "--drivetrain",
-                                            str(ctx.drivetrain), "--json"],
-                      CHECK_SCHEMA, "check", "reducer, motor and supply checks (gaitload check)",
-                      needs_drivetrain=True, ok_codes=(0, 1))  # 1: a part failed, still figures
+register_provider(MetricProvider("loads", _loads_provider, LOADS_SCHEMA,
+                                 "duty spectra of the record (gaitload loads)"))
+register_provider(MetricProvider("check", _check_provider, CHECK_SCHEMA,
+                                 "reducer, motor and supply checks (gaitload check)",
+                                 needs_drivetrain=True))
 register_provider(MetricProvider("backdrive", _backdrive_provider, BACKDRIVE_SCHEMA,
                                  "back-drivability of the resolved model (sim.drive.backdrive)"))
 
