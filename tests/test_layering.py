@@ -106,7 +106,7 @@ def test_only_the_runner_imports_the_engine_and_only_record_touches_h5py():
 def test_post_processing_and_checks_never_load_the_engine():
     code = ("import sys\n"
             "import sim.loads.spectra, sim.loads.series, sim.loads.report, sim.loads.rainflow\n"
-            "import sim.loads.mix, sim.figures.loads\n"
+            "import sim.loads.damage, sim.loads.mix, sim.figures.loads\n"
             "import sim.checks.drivetrain_file, sim.checks.reducer, sim.checks.motor\n"
             "import sim.checks.thermal, sim.checks.supply, sim.commands.loads\n"
             "import sim.commands.check\n"

@@ -10,14 +10,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sim.core.errors import InputError, RecordError
+from sim.loads.damage import BasquinCurve, cycle_matrix_edges
 from sim.loads.mix import resolve_usage
-from sim.loads.rainflow import (
-    BasquinCurve,
-    concat_cycles,
-    count_by_range,
-    cycle_matrix_edges,
-    extract_cycles,
-)
+from sim.loads.rainflow import concat_cycles, count_by_range, extract_cycles
 from sim.loads.report import duty_loads, with_cycle_matrices
 from sim.loads.series import cycle_matrices, series_figures
 from sim.loads.spectra import (

@@ -19,14 +19,14 @@ from pathlib import Path
 from typing import Any
 
 from sim.core.errors import InputError
-from sim.loads.mix import UsageMix, usage_from_inputs
-from sim.loads.rainflow import (
+from sim.loads.damage import (
     BasquinCurve,
     CycleMatrix,
     combine_matrices,
     combine_totals,
     cycle_matrix_edges,
 )
+from sim.loads.mix import UsageMix, usage_from_inputs
 from sim.loads.series import (
     DEFAULT_HOLD_SPEED_RAD_S,
     DEFAULT_HOLD_TORQUE_NM,

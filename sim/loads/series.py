@@ -9,7 +9,7 @@ series; these figures are then unavailable, with the reason
 (:func:`series_unavailable_reason`).
 
 Memory does not grow with the record: series are read ``rows`` samples at a time, and rainflow
-cycles are not kept but added up as they close (:class:`sim.loads.rainflow.CycleTally`).
+cycles are not kept but added up as they close (:class:`sim.loads.damage.CycleTally`).
 """
 
 from __future__ import annotations
@@ -20,7 +20,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from sim.core.errors import RecordError
-from sim.loads.rainflow import BasquinCurve, CycleMatrix, CycleTally, CycleTotals, ReversalStream
+from sim.loads.damage import BasquinCurve, CycleMatrix, CycleTally, CycleTotals
+from sim.loads.rainflow import ReversalStream
 from sim.loads.spectra import TWO_PI, JointSpectrum
 from sim.record import RunRecord
 
