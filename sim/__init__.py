@@ -13,13 +13,20 @@ figures, and nothing imports the commands (enforced by tests/test_layering.py):
               disturbance, gaits.*       segment kinds, the segment controllers (pure numpy)
     record                             - THE ONLY MODULE THAT TOUCHES h5py
     engine    runner                   - THE ONLY MODULE THAT IMPORTS pybullet
-    loads     spectra, rainflow, mix   - records to duty spectra (never imports the engine)
+    loads     spectra, series, report, - records to duty spectra (never imports the engine)
+              rainflow, damage, mix,
+              tables
     checks    drivetrain_file, reducer - parts against spectra: reducers, bearings, contact,
-              and its kinds, motor, ...  gears, materials, motor, thermal, supply, report
-    sweeps    sweep                    - many cases in parallel (process pool or Dask)
+              and its kinds, motor*,     gears, materials, motor, thermal, supply, report;
+              duty_input,                the duty of a record or a mix, and the whole check
+              drivetrain_check, ...      of a drivetrain
+    sweeps    providers, metrics,      - many cases in parallel (process pool or Dask)
+              spec, cases, ranking,
+              executors
     figures   loads, check, motor,     - matplotlib figures (imported lazily)
               sweep
-    commands  cli, <command>           - thin command-line layer over the library
+    commands  cli, <command>,          - thin command-line layer over the library
+              cli_provider
 
 Array convention everywhere: time series are ``[sample]`` or ``[sample, component]``;
 per-joint arrays are dictionaries keyed by joint name (``fl_knee``) rather than a joint axis.

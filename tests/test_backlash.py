@@ -378,7 +378,8 @@ def test_bad_backlash_input_is_refused_clearly(tmp_path, capsys, name, model, ex
 
 def test_the_backlash_sweep_resolves_to_four_valid_cases():
     # every case passes the input checks (mesh stability at its time step) before anything runs
-    from sim.sweeps.sweep import load_sweep, resolve_cases
+    from sim.sweeps.cases import resolve_cases
+    from sim.sweeps.spec import load_sweep
 
     cases = resolve_cases(load_sweep(SCENARIOS / "sweep_backlash.toml"))
     assert [c.spec is not None for c in cases] == [True] * 4, [c.error for c in cases]

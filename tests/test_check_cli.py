@@ -8,10 +8,11 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from sim.checks.drivetrain_check import build_report
 from sim.checks.drivetrain_file import load_drivetrain
+from sim.checks.duty_input import load_duties
 from sim.checks.reducer import CheckSettings
 from sim.checks.report import Section, add_section, exit_code, to_json_dict
-from sim.commands.check import build_report, load_duties
 from sim.commands.cli import main
 from tests.synthetic import write_synthetic_record
 

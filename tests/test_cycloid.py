@@ -16,6 +16,7 @@ import pytest
 from scipy.optimize import minimize_scalar
 
 from sim.checks import cycloid as c
+from sim.checks import cycloid_geometry as g
 from sim.core.errors import InputError
 
 N, R, E = 20, 0.040, 0.0015  # literature-style example: K1 = 0.75
@@ -34,39 +35,39 @@ def part_table(**geom) -> dict:
 
 def test_ratio_from_pins_and_lobes():
     # common practice: 11 ring pins, 10 lobes, ring fixed -> 10:1 (i = z_c/(N - z_c))
-    assert c.ratio_fixed_ring(11, 10) == 10.0
-    assert c.ratio_fixed_ring(20, 19) == 19.0
+    assert g.ratio_fixed_ring(11, 10) == 10.0
+    assert g.ratio_fixed_ring(20, 19) == 19.0
     stage = c.cycloid_from_table(part_table(), "hip.toml")
     assert stage.ratio == 11.0
 
 
 def test_output_hole_is_pin_plus_twice_eccentricity():
     # common practice: a 12 mm roller at 4.5 mm eccentricity needs a 21 mm output hole
-    assert c.output_hole_diameter_m(0.012, 0.0045) == pytest.approx(0.021, abs=1e-12)
-    assert c.output_hole_diameter_m(0.008, 0.0015) == pytest.approx(0.011, abs=1e-12)
+    assert g.output_hole_diameter_m(0.012, 0.0045) == pytest.approx(0.021, abs=1e-12)
+    assert g.output_hole_diameter_m(0.008, 0.0015) == pytest.approx(0.011, abs=1e-12)
 
 
 def test_profile_radius_range_and_pin_tangency():
     # Sensinger 2010 profile: radius runs from R - e - r_r to R + e - r_r (35.5..38.5 mm)
-    xy = c.disc_profile_xy(N, R, E, 0.003, 20000)
+    xy = g.disc_profile_xy(N, R, E, 0.003, 20000)
     rad = np.hypot(xy[:, 0], xy[:, 1])
     assert rad.min() == pytest.approx(0.0355, abs=1e-7)
     assert rad.max() == pytest.approx(0.0385, abs=1e-7)
     # every profile point lies exactly r_r from the pitch curve (an offset curve)
     u = np.linspace(0, 2 * np.pi, 20000, endpoint=False)
-    pc = c.pitch_curve_xy(N, R, E, u)
+    pc = g.pitch_curve_xy(N, R, E, u)
     assert np.allclose(np.hypot(*(pc - xy).T), 0.003, atol=1e-12)
 
 
 def test_min_curvature_radius_literature_cases():
     # closed form of the pitch-curve curvature (Hwang & Hsieh, ASME JMD 129, 2007 type
     # non-undercutting condition, from memory); N = 20, K1 = 0.75, R = 40 mm -> 6.2270 mm
-    rho, phi = c.min_curvature_radius_m(N, R, E)
+    rho, phi = g.min_curvature_radius_m(N, R, E)
     assert rho == pytest.approx(6.2270e-3, abs=5e-8)
     assert math.cos(phi) == pytest.approx(0.25, abs=1e-12)
     for n, k1, expected in [(12, 0.6, 0.294139), (40, 0.9, 0.053878), (10, 0.3, 0.4225),
                             (30, 0.5, 0.140401)]:
-        assert c.min_curvature_radius_m(n, 1.0, k1 / n)[0] == pytest.approx(expected, abs=5e-7)
+        assert g.min_curvature_radius_m(n, 1.0, k1 / n)[0] == pytest.approx(expected, abs=5e-7)
 
 
 def test_min_curvature_matches_dense_numerical_curvature():
@@ -74,19 +75,19 @@ def test_min_curvature_matches_dense_numerical_curvature():
     for n, k1 in [(12, 0.4), (20, 0.75), (11, 0.2), (30, 0.5)]:
         e = k1 * R / n
         u = np.linspace(0, 2 * np.pi / (n - 1), 200001)
-        p = c.pitch_curve_xy(n, R, e, u)
+        p = g.pitch_curve_xy(n, R, e, u)
         d1 = np.gradient(p, u, axis=0)
         d2 = np.gradient(d1, u, axis=0)
         kappa = (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / np.hypot(*d1.T) ** 3
         rho = 1.0 / kappa[kappa > 0]
-        assert c.min_curvature_radius_m(n, R, e)[0] == pytest.approx(rho[2:-2].min(), rel=1e-5)
+        assert g.min_curvature_radius_m(n, R, e)[0] == pytest.approx(rho[2:-2].min(), rel=1e-5)
 
 
 @pytest.mark.parametrize(("factor", "undercut"), [(0.9, False), (1.1, True)])
 def test_undercut_when_pin_radius_exceeds_rho_min(factor, undercut):
     # offset curve of radius r_r > rho_min loops: its tangent reverses (Sensinger 2010)
-    rho, _ = c.min_curvature_radius_m(N, R, E)
-    xy = c.disc_profile_xy(N, R, E, factor * rho, 40000)
+    rho, _ = g.min_curvature_radius_m(N, R, E)
+    xy = g.disc_profile_xy(N, R, E, factor * rho, 40000)
     seg = np.diff(np.vstack([xy, xy[:1]]), axis=0)
     turn = (seg * np.roll(seg, -1, axis=0)).sum(axis=1)
     assert bool((turn < 0).any()) == undercut
@@ -99,7 +100,7 @@ def _contact_normals_moment(n, r, e, tc, theta):
     alpha = -theta / (n - 1)  # disc rotation for crank angle theta (ring fixed)
     rot = np.array([[math.cos(alpha), -math.sin(alpha)], [math.sin(alpha), math.cos(alpha)]])
     centre = e * np.array([math.cos(theta), math.sin(theta)])
-    forces = c.ring_pin_forces_n(n, r, e, tc, theta)
+    forces = g.ring_pin_forces_n(n, r, e, tc, theta)
     total = 0.0
     for k in range(n):
         if forces[k] == 0:
@@ -109,7 +110,7 @@ def _contact_normals_moment(n, r, e, tc, theta):
         local = rot.T @ (pin - centre)
         u0 = math.atan2(local[1], local[0])
         res = minimize_scalar(lambda u, q=local: float(np.sum(
-                                  (c.pitch_curve_xy(n, r, e, np.array([u]))[0] - q) ** 2)),
+                                  (g.pitch_curve_xy(n, r, e, np.array([u]))[0] - q) ** 2)),
                               bounds=(u0 - 0.3, u0 + 0.3), method="bounded",
                               options={"xatol": 1e-13})
         u = res.x
@@ -132,22 +133,22 @@ def test_pin_force_moments_sum_to_applied_torque(theta):
 def test_closed_form_max_pin_force_agrees_with_discrete_sum():
     # Malhotra & Parameswaran 1983: F_max = 4 T_c/(N (N-1) e) = 70.175 N for T_c = 10 N m;
     # the discrete sum over the pins varies with crank angle around it (discreteness)
-    closed = c.max_pin_force_closed_form_n(N, E, 10.0)
+    closed = g.max_pin_force_closed_form_n(N, E, 10.0)
     assert closed == pytest.approx(70.175, abs=5e-4)
     thetas = np.linspace(0, 2 * np.pi / N, 64, endpoint=False)
-    disc = np.array([c.ring_pin_forces_n(N, R, E, 10.0, t).max() for t in thetas])
+    disc = np.array([g.ring_pin_forces_n(N, R, E, 10.0, t).max() for t in thetas])
     assert np.all(np.abs(disc / closed - 1) < 0.025)
     # with many pins the discrete sum converges to the closed form
     n = 200
     e = 0.75 * R / n
-    disc200 = max(c.ring_pin_forces_n(n, R, e, 10.0, t).max() for t in thetas[:8])
-    assert disc200 == pytest.approx(c.max_pin_force_closed_form_n(n, e, 10.0), rel=2e-3)
+    disc200 = max(g.ring_pin_forces_n(n, R, e, 10.0, t).max() for t in thetas[:8])
+    assert disc200 == pytest.approx(g.max_pin_force_closed_form_n(n, e, 10.0), rel=2e-3)
 
 
 def test_input_torque_from_force_balance():
     # power balance T_in = T_c/(N-1), here from the disc's force balance through the crank
     for theta in (0.0, 0.2, 0.37):
-        f = c.disc_forces(N, R, E, 6, 0.020, 10.0, theta)
+        f = g.disc_forces(N, R, E, 6, 0.020, 10.0, theta)
         o, fb = f["disc_centre"], f["bearing_force"]
         assert o[0] * fb[1] - o[1] * fb[0] == pytest.approx(10.0 / 19.0, rel=1e-9)
 
@@ -158,7 +159,7 @@ def test_output_pin_forces_and_bearing_load_band():
     # (Malhotra & Parameswaran 1983 type analysis): the discrete load averages to it over a
     # turn and stays within +-3 % near theta = 0.37 rad; six output pins make it ripple
     theta = -math.pi / 2  # puts output pin 0 at 90 deg from the eccentric direction
-    q = c.output_pin_forces_n(6, 0.020, 10.0, theta)
+    q = g.output_pin_forces_n(6, 0.020, 10.0, theta)
     psi = 2 * np.pi * np.arange(6) / 6 - theta
     assert (q * 0.020 * np.sin(psi)).sum() == pytest.approx(10.0, rel=1e-12)  # moments = T_c
     assert q.max() == pytest.approx(333.33, abs=0.01)
@@ -166,18 +167,18 @@ def test_output_pin_forces_and_bearing_load_band():
     ix = 1 / k - (1 - k * k) / (2 * k * k) * math.log((1 + k) / (1 - k))
     rc = E * (N - 1)
     est = math.hypot(4 * 10 / (math.pi * 0.020) - 2 * 10 / (math.pi * rc) * ix, 10 / rc)
-    turn = [np.linalg.norm(c.disc_forces(N, R, E, 6, 0.020, 10.0, t)["bearing_force"])
+    turn = [np.linalg.norm(g.disc_forces(N, R, E, 6, 0.020, 10.0, t)["bearing_force"])
             for t in np.linspace(0, 2 * np.pi, 360, endpoint=False)]
     assert np.mean(turn) == pytest.approx(est, rel=0.005)
-    fb = np.linalg.norm(c.disc_forces(N, R, E, 6, 0.020, 10.0, 0.37)["bearing_force"])
+    fb = np.linalg.norm(g.disc_forces(N, R, E, 6, 0.020, 10.0, 0.37)["bearing_force"])
     assert fb == pytest.approx(est, rel=0.03)
 
 
 def test_imbalance_force_and_two_disc_couple():
     # rotating unbalance F = m e w^2 (Uicker, Pennock & Shigley): 0.15 kg, 1.5 mm, 3000 rpm
     w = 3000 * 2 * math.pi / 60
-    assert c.imbalance_force_n(0.15, 0.0015, w) == pytest.approx(22.21, abs=0.005)
-    assert c.two_disc_couple_nm(0.15, 0.0015, w, 0.010) == pytest.approx(0.2221, abs=5e-5)
+    assert g.imbalance_force_n(0.15, 0.0015, w) == pytest.approx(22.21, abs=0.005)
+    assert g.two_disc_couple_nm(0.15, 0.0015, w, 0.010) == pytest.approx(0.2221, abs=5e-5)
 
 
 @pytest.mark.parametrize(("key", "value", "named"), [
@@ -232,7 +233,7 @@ def test_profile_exports(tmp_path):
 def test_disc_mass_from_profile_area():
     # shoelace area of a fine polygon of a circle -> pi r^2
     t = np.linspace(0, 2 * np.pi, 20000, endpoint=False)
-    assert c.polygon_area_m2(np.stack([np.cos(t), np.sin(t)], -1)) == pytest.approx(math.pi,
+    assert g.polygon_area_m2(np.stack([np.cos(t), np.sin(t)], -1)) == pytest.approx(math.pi,
                                                                                      rel=1e-7)
     stage = c.cycloid_from_table(part_table(), "hip.toml")
     assert 0.005 < stage.disc_mass_kg < 0.05

@@ -149,7 +149,9 @@ def test_motor_check_does_not_count_simulated_rotors_twice(tmp_path):
     # rotor's inertia: the motor check must then take it as is (T_m = torque_nm / N, the
     # ideal-gear relation), not add J_r alpha again
     from sim.checks.drivetrain_file import load_drivetrain
-    from sim.checks.motor import check_motors, load_motor_part, simulated_drive_effects
+    from sim.checks.motor import check_motors
+    from sim.checks.motor_duty import simulated_drive_effects
+    from sim.checks.motor_part import load_motor_part
     from sim.checks.supply import load_supply
 
     from .conftest import MODELS

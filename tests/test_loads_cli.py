@@ -9,8 +9,9 @@ import numpy as np
 import pytest
 
 from sim.commands.cli import main
+from sim.loads.damage import cycle_matrix_edges
 from sim.loads.mix import resolve_usage
-from sim.loads.rainflow import cycle_matrix_edges, extract_cycles
+from sim.loads.rainflow import extract_cycles
 from sim.loads.spectra import equivalent_torque_nm, usage_spectra
 from sim.record import open_record
 from tests.loads_records import write_record

@@ -13,11 +13,11 @@ from hypothesis import strategies as st
 
 from sim import JOINT_NAMES
 from sim.checks import thermal as th
-from sim.checks.motor import (
+from sim.checks.motor import check_motors
+from sim.checks.motor_part import (
     CURRENT_CONVENTIONS,
     MotorPart,
     back_emf_constant,
-    check_motors,
     corner_speed_rad_s,
     envelope_nm,
     joint_torque_from_motor,

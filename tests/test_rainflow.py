@@ -11,18 +11,20 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sim.core.errors import InputError
-from sim.loads.rainflow import (
+from sim.loads.damage import (
     BasquinCurve,
     CycleTally,
     ExactSum,
-    ReversalStream,
     combine_totals,
+    damage_equivalent_range,
+    miner_damage,
+)
+from sim.loads.rainflow import (
+    ReversalStream,
     concat_cycles,
     count_by_range,
-    damage_equivalent_range,
     extract_cycles,
     find_reversals,
-    miner_damage,
 )
 from tests.helpers import held_elements
 

@@ -10,28 +10,21 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sim.core.errors import InputError, RecordError
+from sim.loads.damage import BasquinCurve, cycle_matrix_edges
 from sim.loads.mix import resolve_usage
-from sim.loads.rainflow import (
-    BasquinCurve,
-    concat_cycles,
-    count_by_range,
-    cycle_matrix_edges,
-    extract_cycles,
-)
+from sim.loads.rainflow import concat_cycles, count_by_range, extract_cycles
+from sim.loads.report import duty_loads, with_cycle_matrices
+from sim.loads.series import cycle_matrices, series_figures
 from sim.loads.spectra import (
     JointSpectrum,
     combine_spectra,
-    cycle_matrices,
-    duty_loads,
     equivalent_torque_nm,
     mean_abs_speed_rad_s,
     quadrant_split,
     rms_torque_nm,
     select_joints,
-    series_figures,
     spectrum_from_record,
     usage_spectra,
-    with_cycle_matrices,
 )
 from sim.record import open_record
 from tests.helpers import held_elements
@@ -244,7 +237,7 @@ def test_joint_selection():
                 min_size=1, max_size=50))
 def test_fast_binning_equals_the_record_writers_rule(xs):
     # the record writer bins with searchsorted(edges, x, "right") - 1, clipped
-    from sim.loads.spectra import _bin_index
+    from sim.loads.series import _bin_index
 
     x = np.asarray(xs, float)
     for edges in (np.linspace(-50.0, 50.0, 101), np.linspace(-0.3, 0.9, 13),
@@ -295,7 +288,7 @@ def test_series_accumulator_holds_no_per_cycle_arrays(tmp_path):
     # structural: the accumulator behind series_figures (stance/swing maps, exceedances,
     # rainflow) keeps arrays of fixed size however many chunks and cycles pass; only the
     # stream's not yet closed reversals vary, and they stay below one chunk
-    from sim.loads.spectra import _JointAccumulator
+    from sim.loads.series import _JointAccumulator
 
     te, se = np.linspace(-50, 50, 101), np.linspace(-40, 40, 81)
     acc = _JointAccumulator("fl_knee", te, se, 1e-3, [5.0, 10.0], 0.1, 0.5, True, [SN])

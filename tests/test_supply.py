@@ -11,7 +11,8 @@ from scipy.integrate import quad
 
 from sim import JOINT_NAMES, LEGS
 from sim.checks import thermal as th
-from sim.checks.motor import MotorPart, back_emf_constant, check_motors
+from sim.checks.motor import check_motors
+from sim.checks.motor_part import MotorPart, back_emf_constant
 from sim.checks.supply import Supply, battery_current_a, bus_power_w, load_supply, pack_energy_wh
 from sim.core.errors import InputError
 from sim.record import RecordWriter

@@ -30,22 +30,15 @@ from hypothesis import strategies as st
 
 from sim import LEGS
 from sim.commands.cli import main
+from sim.commands.cli_provider import register_cli_provider
 from sim.core.errors import InputError
 from sim.record import open_record
-from sim.sweeps.sweep import (
-    PROVIDERS,
-    CaseContext,
-    MetricProvider,
-    evaluate_metric,
-    load_sweep,
-    pareto_front,
-    parse_metric,
-    register_cli_provider,
-    register_provider,
-    resolve_cases,
-    run_sweep,
-    write_outputs,
-)
+from sim.sweeps.cases import resolve_cases
+from sim.sweeps.executors import run_sweep
+from sim.sweeps.metrics import evaluate_metric, parse_metric
+from sim.sweeps.providers import PROVIDERS, CaseContext, MetricProvider, register_provider
+from sim.sweeps.ranking import pareto_front, write_outputs
+from sim.sweeps.spec import load_sweep
 
 from .conftest import MODELS, SCENARIOS
 
@@ -313,12 +306,23 @@ def test_cli_provider_runs_a_command_in_process_and_reads_its_json(monkeypatch, 
 
 
 def test_model_provider_gives_reflected_inertia_n_squared_j():
-    from sim.sweeps.sweep import _model_provider
+    from sim.sweeps.providers import _model_provider
 
     text = (MODELS / "fennec.toml").read_text()
     doc = _model_provider(CaseContext(Path("x"), {}, "", text, None))
     ev = evaluate_metric(parse_metric("model.actuators.fl_knee.reflected_inertia_kg_m2"), doc)
     assert ev == pytest.approx(9 ** 2 * 6.5e-5, rel=1e-12)  # N^2 J_rotor, N = 9
+
+
+def test_the_fork_server_preloads_modules_that_exist():
+    # multiprocessing skips a preload name that does not import without a word
+    import importlib
+
+    from sim.sweeps.executors import FORKSERVER_PRELOAD
+
+    assert FORKSERVER_PRELOAD
+    for name in FORKSERVER_PRELOAD:
+        assert importlib.import_module(name).__name__ == name
 
 
 # --- grids and samples -----------------------------------------------------------------------

@@ -12,7 +12,8 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
 from sim.checks import thermal as th
-from sim.checks.motor import MotorPart, back_emf_constant, check_motors
+from sim.checks.motor import check_motors
+from sim.checks.motor_part import MotorPart, back_emf_constant
 from sim.checks.supply import Supply
 from tests.synthetic import write_synthetic_record
 

@@ -31,7 +31,10 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def execute(args: argparse.Namespace) -> int:
     from sim.core.errors import InputError
-    from sim.sweeps.sweep import CAUTION, format_table, load_sweep, run_sweep, write_outputs
+    from sim.sweeps.cases import jsonable
+    from sim.sweeps.executors import run_sweep
+    from sim.sweeps.ranking import CAUTION, format_table, write_outputs
+    from sim.sweeps.spec import load_sweep
 
     if args.workers is not None and args.workers < 1:
         raise InputError("--workers", None, "a worker count of at least 1", args.workers)
@@ -54,9 +57,7 @@ def execute(args: argparse.Namespace) -> int:
         doc = dict(summary, results_csv=str(csv_path), summary_json=str(json_path),
                    plots=[str(p) for p in plots], cases_run=result.n_run,
                    cases_reused=result.n_reused)
-        from sim.sweeps.sweep import _jsonable
-
-        print(json.dumps(_jsonable(doc), indent=2))
+        print(json.dumps(jsonable(doc), indent=2))
     else:
         print(format_table(result))
         w, r = summary["winner"], summary["runner_up"]

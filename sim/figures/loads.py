@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 
 from sim.figures.common import pyplot, save_png
-from sim.loads.rainflow import CycleMatrix
+from sim.loads.damage import CycleMatrix
 from sim.loads.spectra import JointSpectrum, load_duration
 
 _pyplot = pyplot

@@ -11,13 +11,9 @@ from typing import Any
 
 import numpy as np
 
-from sim.checks.motor import (
-    CAUTION,
-    MotorReport,
-    RecordResult,
-    current_limit_torque_nm,
-    envelope_nm,
-)
+from sim.checks.motor import CAUTION, MotorReport
+from sim.checks.motor_part import current_limit_torque_nm, envelope_nm
+from sim.checks.motor_record import RecordResult
 from sim.figures.common import pyplot as _pyplot
 from sim.figures.common import save_png
 

@@ -13,7 +13,7 @@ import math
 from pathlib import Path
 from typing import Any
 
-from sim.sweeps.sweep import SweepResult
+from sim.sweeps.ranking import SweepResult
 
 
 def _num(v: Any) -> bool:

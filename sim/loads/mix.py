@@ -204,3 +204,24 @@ def resolve_usage(path: str | Path) -> UsageMix:
     if p.suffix.lower() == ".toml":
         return load_mix(p)
     return mix_of_records([p])
+
+
+def usage_from_inputs(records: Sequence[str | Path] = (), mix: str | Path | None = None
+                      ) -> UsageMix:
+    """The usage mix of ``gaitload loads`` inputs: run records taken one after the other, one
+    mix file given alone (as the only record or as ``mix``), or ``mix`` without records.
+
+    Errors name the command's arguments (``RECORD.h5``, ``--mix``), which these stand for.
+    """
+    if mix and records:
+        raise InputError(None, "--mix", "either records or --mix MIX.toml, not both")
+    if mix:
+        return resolve_usage(mix)
+    if not records:
+        raise InputError(None, "RECORD.h5", "at least one run record or --mix MIX.toml")
+    if len(records) == 1:
+        return resolve_usage(records[0])
+    for p in records:
+        if Path(p).suffix.lower() == ".toml":
+            raise InputError(str(p), None, "a run record (give a mix file alone or with --mix)")
+    return mix_of_records(records)

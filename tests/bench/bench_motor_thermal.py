@@ -17,7 +17,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 from sim import JOINT_NAMES
 from sim.checks import thermal as th
-from sim.checks.motor import check_motors, load_motor_part
+from sim.checks.motor import check_motors
+from sim.checks.motor_part import load_motor_part
 from sim.checks.supply import Supply
 from tests.synthetic import write_synthetic_record
 

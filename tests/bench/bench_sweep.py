@@ -76,7 +76,9 @@ def main() -> int:
 
     from distributed import Client, LocalCluster
 
-    from sim.sweeps.sweep import load_sweep, run_sweep, write_outputs
+    from sim.sweeps.executors import run_sweep
+    from sim.sweeps.ranking import write_outputs
+    from sim.sweeps.spec import load_sweep
 
     sweep = load_sweep(sweep_file(a.duration_s))
     print(f"16-case sweep, {a.duration_s:g} s stand per case, {os.cpu_count()} CPUs, "

@@ -1,0 +1,146 @@
+"""The drivetrain check: every joint's reducer, motor and the supply against its duty.
+
+Takes a duty (a run record or a usage mix, :mod:`.duty_input`), a drivetrain file
+(:mod:`.drivetrain_file`) and the check settings, and gives the check report
+(:func:`check_drivetrain`): a ``reducer`` section per joint with a reducer and a duty
+(:mod:`.reducer`), a ``motor`` section per joint with a motor (:mod:`.motor`) and the
+whole-robot supply figures, gathered as :class:`~.report.CheckReport` (JSON with
+:func:`~.report.to_json`). This is ``gaitload check`` as a function; the cycloid disc profiles
+of its ``--plot`` are :func:`write_disc_profiles`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+from sim.checks.drivetrain_file import Drivetrain, load_drivetrain
+from sim.checks.duty_input import load_duties, motor_duty_source
+from sim.checks.motor import MotorReport, check_motors
+from sim.checks.motor_part import load_motor_part
+from sim.checks.reducer import NOT_MODELLED, CheckSettings, JointDuty, check_reducer
+from sim.checks.report import CheckReport, Section, add_not_modelled, add_section
+from sim.checks.supply import load_supply
+from sim.core.errors import InputError
+
+
+def build_report(drivetrain: Drivetrain, duties: dict[str, JointDuty],
+                 settings: CheckSettings, inputs: dict | None = None) -> CheckReport:
+    """The reducer section of every joint that has both a reducer and a duty."""
+    report = CheckReport(inputs={**(inputs or {}),
+                                 "required_life_h": settings.required_life_h,
+                                 "safety_factor": settings.safety_factor,
+                                 "reliability_pct": settings.reliability_pct})
+    for joint, drive in drivetrain.joints.items():
+        if drive.reducer is None or joint not in duties:
+            continue
+        report = add_section(report, joint, check_reducer(drive.reducer, duties[joint],
+                                                          settings))
+    extra = ["series decimation may hide short torque peaks when counting peak events"]
+    return add_not_modelled(report, [*NOT_MODELLED, *extra])
+
+
+MOTOR_COLUMNS = (("winding_peak_c", "winding peak C", ".1f"),
+                 ("winding_limit_c", "limit C", ".0f"),
+                 ("rms_torque_ratio", "rms/continuous", ".2f"),
+                 ("peak_torque_ratio", "peak/rating", ".2f"),
+                 ("outside_envelope_s", "outside envelope s", ".3f"))
+
+
+def add_motor_checks(report: CheckReport, drivetrain: Drivetrain, duty: Path,
+                     mission_h: float | None, allow_failed: bool
+                     ) -> tuple[CheckReport, MotorReport | None]:
+    """Add a ``motor`` section per joint with a motor, and the whole-robot supply figures;
+    returns the report and the motor check behind it (None when no joint has a motor)."""
+    with_motor = {j: d for j, d in drivetrain.joints.items()
+                  if d.motor_path is not None and d.reducer is not None}
+    if not with_motor:
+        return report, None
+    if not drivetrain.supply:
+        raise InputError(drivetrain.file, "supply",
+                         "a [supply] table when motors are assigned")
+    supply = load_supply(dict(drivetrain.supply), drivetrain.file)
+    parts: dict[str, object] = {}
+    drives = {}
+    for j, d in with_motor.items():
+        assert d.motor_path is not None and d.reducer is not None
+        key = str(d.motor_path)
+        if key not in parts:
+            parts[key] = load_motor_part(d.motor_path)
+        red = d.reducer
+        drives[j] = (parts[key], red.ratio, red.efficiency_forward, red.efficiency_back,
+                     red.input_inertia_kg_m2)
+    if mission_h is not None and not (mission_h > 0 and math.isfinite(mission_h)):
+        raise InputError("--mission-h", None, "a positive number of hours", mission_h)
+    mrep = check_motors(motor_duty_source(duty), drives, supply,
+                        mission_s=None if mission_h is None else mission_h * 3600.0,
+                        allow_failed=allow_failed)
+    for j in drives:
+        js = mrep.joint_summary(j)
+        reasons = js.get("fail_reasons") or []
+        ratios = {"winding temperature": (js["winding_peak_c"] or math.inf)
+                  / js["winding_limit_c"], "rms torque": js["rms_torque_ratio"],
+                  "peak torque": js["peak_torque_ratio"]}
+        governing = reasons[0] if reasons else max(ratios, key=lambda k: ratios[k])
+        values = {k: v for k, v in js.items() if k not in ("verdict", "fail_reasons")}
+        values["fail_reasons"] = list(reasons)
+        report = add_section(report, j, Section("motor", js["verdict"], governing, values,
+                                                MOTOR_COLUMNS))
+    text = mrep.to_text().splitlines()
+    blank = text.index("") if "" in text else len(text)
+    report = replace(report, supply=mrep.supply_summary(),
+                     supply_text=tuple(line for line in text[blank + 1:] if line))
+    report = add_not_modelled(report, ["motor inductance and field weakening (steady-state "
+                                       "envelope)", "driver switching losses beyond a fixed "
+                                       "inverter efficiency"])
+    return report, mrep
+
+
+@dataclass(frozen=True)
+class DrivetrainCheck:
+    """Result of :func:`check_drivetrain`: the drivetrain read, the report (reducer and motor
+    sections, supply) and the motor check behind the motor sections (None without motors)."""
+
+    drivetrain: Drivetrain
+    report: CheckReport
+    motors: MotorReport | None
+
+
+def check_drivetrain(duty: str | Path, drivetrain: str | Path,
+                     settings: CheckSettings | None = None, mission_h: float | None = None,
+                     allow_failed: bool = False) -> DrivetrainCheck:
+    """Check the parts of ``drivetrain`` (a drivetrain file) against ``duty`` (a run record or
+    a usage mix), as ``gaitload check`` does.
+
+    ``mission_h``: also judge the winding temperature over a mission of this many hours from
+    cold (default: continuous running, periodic steady state). ``allow_failed``: accept a
+    record whose run fell or diverged. Bad input raises :class:`~sim.core.errors.InputError`.
+    """
+    settings = CheckSettings() if settings is None else settings
+    dt = load_drivetrain(drivetrain)
+    duties = load_duties(duty, list(dt.joints), allow_failed)
+    report = build_report(dt, duties, settings,
+                          {"duty": str(duty), "drivetrain": str(drivetrain)})
+    if not report.joints:
+        raise InputError(str(drivetrain), "joint",
+                         "at least one joint with a reducer and a duty")
+    report, motors = add_motor_checks(report, dt, Path(duty), mission_h, allow_failed)
+    return DrivetrainCheck(dt, report, motors)
+
+
+def write_disc_profiles(drivetrain: Drivetrain, out_dir: str | Path) -> list[Path]:
+    """The disc profile (CSV and SVG) of every cycloid part of ``drivetrain``, once per part
+    file: ``<part stem>_disc_profile.csv`` and ``.svg`` in ``out_dir``."""
+    from sim.checks.cycloid import CycloidStage, write_profile_csv, write_profile_svg
+
+    written = []
+    seen: set[str] = set()
+    for drive in drivetrain.joints.values():
+        part = drive.reducer
+        if isinstance(part, CycloidStage) and part.file not in seen:
+            seen.add(part.file)
+            stem = Path(part.file).stem
+            written.append(write_profile_csv(part, Path(out_dir) / f"{stem}_disc_profile.csv"))
+            written.append(write_profile_svg(part, Path(out_dir) / f"{stem}_disc_profile.svg"))
+    return written

@@ -1,0 +1,153 @@
+"""Running a sweep: the missing cases on a local process pool or on Dask, then the ranking.
+
+Takes a :class:`~.spec.Sweep` and an output folder and gives the :class:`~.ranking.SweepResult`
+(:func:`run_sweep`). Cases already stored with a final status are reused (:mod:`.cases`);
+the others run in worker processes, each through :func:`~.cases.run_case`: a local
+``concurrent.futures`` pool started with ``forkserver`` (``spawn`` where that does not exist),
+or the workers of a ``dask.distributed`` scheduler. Results do not depend on the executor, the
+worker count or the order in which cases finish.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+from sim.core.errors import GaitloadError, InputError
+from sim.sweeps.cases import load_case_result, resolve_cases, run_case, store_case
+from sim.sweeps.ranking import SweepResult, case_result, rank_cases
+from sim.sweeps.spec import Sweep
+
+# the fork server imports the engine and the case code once; workers forked from it start at
+# once and together, so the first cases do not queue behind one worker's imports. Module names
+# (a name that does not import is skipped silently by multiprocessing; tests/test_sweep.py
+# imports each); run_case's module imports the metrics and providers it needs.
+FORKSERVER_PRELOAD: tuple[str, ...] = (run_case.__module__, "sim.engine.runner")
+
+
+def available_cpus() -> int:
+    """CPUs this process may use."""
+    if hasattr(os, "sched_getaffinity"):
+        return len(os.sched_getaffinity(0))
+    return os.cpu_count() or 1
+
+
+def _mp_context() -> Any:
+    import multiprocessing as mp
+
+    methods = mp.get_all_start_methods()
+    if "forkserver" not in methods:
+        return mp.get_context("spawn")
+    ctx = mp.get_context("forkserver")
+    ctx.set_forkserver_preload(list(FORKSERVER_PRELOAD))
+    return ctx
+
+
+def _execute_local(specs: list[dict[str, Any]], out_dir: Path, workers: int,
+                   done: Callable[[dict[str, Any]], None]) -> None:
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+    from concurrent.futures.process import BrokenProcessPool
+
+    with ProcessPoolExecutor(max_workers=max(1, min(workers, len(specs))),
+                             mp_context=_mp_context()) as pool:
+        futs = {pool.submit(run_case, s, str(out_dir)): s for s in specs}
+        try:
+            for f in as_completed(futs):
+                try:
+                    done(f.result())
+                except BrokenProcessPool:
+                    done({"key": futs[f]["key"], "status": "error", "metrics": {},
+                          "reason": "the worker process died (out of memory or a crash)"})
+        except BaseException:
+            pool.shutdown(wait=True, cancel_futures=True)
+            raise
+
+
+def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shared: bool,
+                  done: Callable[[dict[str, Any]], None]) -> None:
+    try:
+        from dask.distributed import Client, as_completed
+    except ImportError:
+        raise InputError("--cluster", None, "dask.distributed installed (pip install "
+                         "'gaitload[cluster]')") from None
+    own = not isinstance(cluster, Client)
+    try:
+        client = Client(cluster, timeout=10) if own else cluster
+    except OSError as exc:
+        raise GaitloadError(f"cannot reach the Dask scheduler at {cluster}: {exc}") from None
+    try:
+        target = str(out_dir) if shared else None
+        futs = client.map(run_case, specs, out_dir=target, pure=False)
+        for f in as_completed(futs):
+            try:
+                done(f.result())
+            except Exception as exc:  # a worker lost or a task failed outside run_case
+                spec = specs[futs.index(f)]
+                done({"key": spec["key"], "status": "error", "metrics": {},
+                      "reason": f"the Dask task failed: {exc!r}"})
+            f.release()
+    finally:
+        if own:
+            client.close()
+
+
+def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
+              cluster: Any = None, shared_output: bool = False,
+              progress: bool = False) -> SweepResult:
+    """Run the missing cases of ``sweep`` into ``out_dir`` and rank all of them.
+
+    ``workers``: local process pool size (default: the CPUs available). ``cluster``: a Dask
+    scheduler address (or a ``dask.distributed.Client``) to run the cases there instead; with
+    ``shared_output`` the workers write records straight into ``out_dir`` (a folder they all
+    see at the same path), otherwise records come back to this process. Results do not depend
+    on the executor, the worker count or the order in which cases finish.
+    """
+    out_dir = Path(out_dir)
+    cases = resolve_cases(sweep)
+    stored: dict[str, dict[str, Any]] = {}
+    todo: dict[str, dict[str, Any]] = {}
+    for c in cases:
+        if c.key in stored or c.key in todo:
+            continue
+        prev = load_case_result(out_dir, c.key)
+        if prev is not None:
+            stored[c.key] = prev
+        elif c.spec is None:
+            stored[c.key] = store_case(out_dir, c, {"key": c.key, "status": "bad_input",
+                                                    "reason": c.error or "", "metrics": {}})
+        else:
+            todo[c.key] = c.spec
+    by_key = {c.key: c for c in cases}
+    bar = None
+    if progress and sys.stderr.isatty() and todo:
+        from tqdm import tqdm
+
+        bar = tqdm(total=len(todo), unit="case", desc="sweep", file=sys.stderr)
+
+    cpu: dict[int, float] = {}
+
+    def done(res: dict[str, Any]) -> None:
+        if "pid" in res:
+            cpu[res["pid"]] = max(cpu.get(res["pid"], 0.0), float(res["process_cpu_s"]))
+        stored[res["key"]] = store_case(out_dir, by_key[res["key"]], res)
+        if bar is not None:
+            bar.update(1)
+
+    specs = list(todo.values())
+    try:
+        if specs:
+            if cluster is not None:
+                _execute_dask(specs, out_dir, cluster, shared_output, done)
+            else:
+                _execute_local(specs, out_dir, workers or available_cpus(), done)
+    finally:
+        if bar is not None:
+            bar.close()
+    results = [case_result(c, stored[c.key], sweep) for c in cases]
+    ranked = rank_cases(results, sweep.rank_metric, sweep.rank_goal)
+    return SweepResult(sweep, out_dir, tuple(results), ranked, len(specs),
+                       len(cases) - len(specs), cpu)
+
