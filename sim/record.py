@@ -554,6 +554,19 @@ class RunRecord:
             return float(a["time_step_s"])
         return float(a.get("sample_period_s") or a["time_step_s"])
 
+    @property
+    def duty_length(self) -> int:
+        """Rows of the duty series (0 when the record holds histograms only)."""
+        name = self.duty_name(self.joint_names[0], "speed_rad_s")
+        return int(self._f[name].shape[0]) if name in self._f else 0
+
+    def require_duty_series(self) -> None:
+        """Raise :class:`RecordError` if the record lacks every-step duty series although it
+        has series (see :meth:`duty_unavailable_reason`)."""
+        reason = self.duty_unavailable_reason()
+        if reason:
+            raise RecordError(str(self.path), "decimation", reason)
+
     def duty_unavailable_reason(self) -> str | None:
         """Why this record has no every-step duty series (a decimated format-1 record), or
         None. Figures built from series need every step: fewer samples miss peaks and cycles

@@ -9,31 +9,7 @@ import pytest
 from scipy import signal
 
 from sim import JOINT_NAMES
-from sim.engine.runner import run
 from sim.record import open_record
-from sim.scenario.scenario_file import load_scenario
-
-from .conftest import SCENARIOS
-
-# a short demo trot: 0.5 s stand, 2.5 s trot, the first 1.5 s left out
-TROT = ["segment.1.duration_s=2.5", "record.start_s=1.5"]
-# the light shank's damping far above the explicit-PD limit (ENGINE_NOTES P12: kd dt / I < ~2):
-# the knees chatter at the clamp, period two steps, and the robot still trots
-CHATTER = [*TROT, "control.kd_nm_s_rad.knee=10"]
-
-
-@pytest.fixture(scope="module")
-def trot_records(tmp_path_factory):
-    d = tmp_path_factory.mktemp("screen")
-    out = {}
-    for name, extra in (("dec1", []), ("dec10", ["record.decimation=10"]),
-                        ("chatter", CHATTER[len(TROT):])):
-        scn = load_scenario(SCENARIOS / "trot.toml", [*TROT, *extra,
-                                                      "record.life_exponents=[9.0]"])
-        res = run(scn, d / f"{name}.h5")
-        assert res.status == "completed", res.detail
-        out[name] = d / f"{name}.h5"
-    return out
 
 
 def test_high_frequency_share_matches_an_offline_filter_of_the_every_step_series(trot_records):

@@ -37,7 +37,8 @@ def build_report(drivetrain: Drivetrain, duties: dict[str, JointDuty],
             continue
         report = add_section(report, joint, check_reducer(drive.reducer, duties[joint],
                                                           settings))
-    extra = ["series decimation may hide short torque peaks when counting peak events"]
+    extra = ["peak events shorter than one simulation step (events are counted on the "
+             "every-step load torque)"]
     return add_not_modelled(report, [*NOT_MODELLED, *extra])
 
 
