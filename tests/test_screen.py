@@ -112,7 +112,7 @@ def test_the_screen_passes_the_demo_trot_and_flags_the_chattering_one(trot_recor
     line = bad.flag_line()
     assert line is not None and line.startswith("QUALITY FLAGGED ") and "\n" not in line
     doc = bad.to_json()
-    assert doc["flagged"] and doc["thresholds"]["high_frequency_share"]["value"] == 0.15
+    assert doc["flagged"] and doc["failed"] == bad.reasons()
 
 
 def _edited_copy(src, dst, edit):

@@ -3,7 +3,8 @@
 
 Takes a run record (or its path); gives a :class:`QualityScreen`: one :class:`Finding` per
 check and subject (a joint or the run), whether any failed (``flagged``), a JSON form and a
-text form whose failures the commands print on their own line.
+text form whose failures the commands print on their own line; :func:`screen_records` gives
+the :class:`ScreenSet` of the records behind one result (a usage mix).
 
 What the screen looks for, and why it matters for a duty cycle:
 
@@ -32,6 +33,7 @@ from memory).
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -111,17 +113,22 @@ class QualityScreen:
     def flagged(self) -> bool:
         return bool(self.failures)
 
-    def reasons(self) -> list[str]:
-        """The failures grouped by check, one short text each."""
-        groups: dict[str, list[Finding]] = {}
+    def reasons(self, compact: bool = False) -> list[str]:
+        """The failures grouped by check and limit, one text each; ``compact`` names at most
+        three subjects (else their count and the worst)."""
+        groups: dict[tuple[str, float | None], list[Finding]] = {}
         for f in self.failures:
-            groups.setdefault(f.check, []).append(f)
+            groups.setdefault((f.check, f.limit), []).append(f)
         out = []
-        for check, fs in groups.items():
-            judged = [f for f in fs if f.value is not None and f.limit is not None]
-            if judged:
-                out.append(f"{check} > {judged[0].limit:.3g}: "
-                           + ", ".join(f"{f.subject} {f.value:.3g}" for f in judged))
+        for (check, limit), fs in groups.items():
+            judged = [f for f in fs if f.value is not None and limit is not None]
+            if judged and limit is not None:
+                if compact and len(judged) > 3:
+                    worst = max(judged, key=lambda f: f.value or 0.0)
+                    who = f"{len(judged)} joints, worst {worst.subject} {worst.value:.3g}"
+                else:
+                    who = ", ".join(f"{f.subject} {f.value:.3g}" for f in judged)
+                out.append(f"{check} > {limit:.3g}: {who}")
             out += [f.detail or check for f in fs if f not in judged]
         return out
 
@@ -129,15 +136,15 @@ class QualityScreen:
         """The one line a command prints for a record that fails the screen, else None."""
         if not self.flagged:
             return None
-        return f"QUALITY FLAGGED {self.record}: " + "; ".join(self.reasons())
+        return f"QUALITY FLAGGED {self.record}: " + "; ".join(self.reasons(compact=True))
 
     def to_json(self) -> dict[str, Any]:
         return {
             "record": self.record, "screened": self.screened, "flagged": self.flagged,
             "failed": self.reasons(),
-            "joints": self.joints, "run": self.run,
-            "thresholds": {k: {"value": t.value, "unit": t.unit, "basis": t.basis}
-                           for k, t in THRESHOLDS.items()},
+            "joints": {j: {k: _json_num(v) for k, v in f.items()}
+                       for j, f in self.joints.items()},
+            "run": {k: _json_num(v) for k, v in self.run.items()},
         }
 
     def to_text(self) -> str:
@@ -163,6 +170,40 @@ class QualityScreen:
                 f" mm, max {1e3 * r.get('height_error_max_m', 0.0):.1f} mm")
         lines += [f"  - {r}" for r in self.reasons()]
         return "\n".join(lines)
+
+
+def _json_num(v: Any) -> Any:
+    """JSON has no NaN or infinity: such figures become null."""
+    return None if isinstance(v, float) and not math.isfinite(v) else v
+
+
+def thresholds_json() -> dict[str, dict[str, Any]]:
+    """The thresholds with their units and basis, as in the commands' JSON."""
+    return {k: {"value": t.value, "unit": t.unit, "basis": t.basis, "meaning": t.text}
+            for k, t in THRESHOLDS.items()}
+
+
+@dataclass(frozen=True)
+class ScreenSet:
+    """The screens of the records behind one result (a record, or the records of a mix)."""
+
+    screens: tuple[QualityScreen, ...]
+
+    @property
+    def flagged(self) -> bool:
+        return any(s.flagged for s in self.screens)
+
+    def flag_lines(self) -> list[str]:
+        """One line per record that fails the screen."""
+        return [line for s in self.screens if (line := s.flag_line()) is not None]
+
+    def to_json(self) -> dict[str, Any]:
+        return {"flagged": self.flagged, "records": [s.to_json() for s in self.screens],
+                "thresholds": thresholds_json()}
+
+    def to_text(self) -> str:
+        """Each record's screen, then each failing record's flag line on its own line."""
+        return "\n".join([*(s.to_text() for s in self.screens), *self.flag_lines()])
 
 
 def _num(x: Any) -> float | None:
@@ -231,9 +272,9 @@ def _screen(rec: RunRecord) -> QualityScreen:
         _judge(findings, "saturated share of time", j, fig["saturated_share"], "saturated_share")
         _judge(findings, "histogram overflow share of time", j, fig["overflow_share"], "overflow_share")
     run = _run_figures(rec, q)
-    slip = run["slip_share"] if run["slip_m"] > SLIP_FLOOR_M else None
+    slip = run["slip_share"] if run.get("slip_m", 0.0) > SLIP_FLOOR_M else None
     _judge(findings, "foot slip share of the stance travel", "run", slip, "slip_share")
-    bounce = run["bounce_share"] if run["bounces"] > 1 else None
+    bounce = run["bounce_share"] if run.get("bounces", 0.0) > 1 else None
     _judge(findings, "touchdown bounce share", "run", bounce, "bounce_share")
     _judge(findings, "base height error share of the plan", "run", run["height_error_share"],
            "height_error_share")
@@ -254,6 +295,10 @@ def _run_figures(rec: RunRecord, q: dict[str, Any]) -> dict[str, Any]:
     return run
 
 
-def screen_records(paths: list[str | Path]) -> list[QualityScreen]:
-    """The screen of each record, in order."""
-    return [screen_record(p) for p in paths]
+def screen_records(paths: Sequence[str | Path]) -> ScreenSet:
+    """The screens of ``paths``, in order (a record screened once however often it appears)."""
+    seen: dict[str, QualityScreen] = {}
+    for p in paths:
+        if str(p) not in seen:
+            seen[str(p)] = screen_record(p)
+    return ScreenSet(tuple(seen.values()))

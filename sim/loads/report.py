@@ -27,6 +27,7 @@ from sim.loads.damage import (
     cycle_matrix_edges,
 )
 from sim.loads.mix import UsageMix, usage_from_inputs
+from sim.loads.quality import ScreenSet, screen_records
 from sim.loads.series import (
     DEFAULT_HOLD_SPEED_RAD_S,
     DEFAULT_HOLD_TORQUE_NM,
@@ -171,6 +172,7 @@ class LoadsReport:
     joints: dict[str, JointLoads]
     notes: tuple[str, ...] = field(default_factory=tuple)
     sn_curve: BasquinCurve | None = None
+    quality: ScreenSet | None = None  # the quality screen of every record of the mix
 
     def to_dict(self) -> dict[str, Any]:
         m = self.mix
@@ -188,12 +190,13 @@ class LoadsReport:
                           "exponent": self.sn_curve.exponent,
                           "cutoff_range_nm": self.sn_curve.cutoff_range}),
             "notes": list(self.notes),
+            "quality": None if self.quality is None else self.quality.to_json(),
         }
 
     def to_json(self) -> str:
         """The JSON text of ``gaitload loads --json`` (:meth:`to_dict`, indent 2, a final
         newline)."""
-        return json.dumps(self.to_dict(), indent=2, sort_keys=False) + "\n"
+        return json.dumps(self.to_dict(), indent=2, sort_keys=False, allow_nan=False) + "\n"
 
 
 CAUTION = ("Results are estimates from simulated duty: manufacturer ratings, local codes and "
@@ -263,7 +266,8 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
         out[j] = JointLoads(j, sp, tuple(exponents),
                             {k: equivalent_torque_nm(sp, p) for k, p in exps.items()},
                             hold_speed_rad_s, hold_torque_nm, ser, sources, dmg)
-    return LoadsReport(mix, out, tuple(notes), sn_curve)
+    return LoadsReport(mix, out, tuple(notes), sn_curve,
+                       screen_records([e.path for e in mix.entries]))
 
 
 def _teq_note(spectra: dict[str, JointSpectrum], exps: dict[str, float]) -> str:
