@@ -4,7 +4,8 @@ Stages, in the order data flows (each package's docstring says what it takes and
 module imports only from its own stage and the stages above it; only the commands import the
 figures, and nothing imports the commands (enforced by tests/test_layering.py):
 
-    core      errors, config, atomic   - error hierarchy, strict TOML reading, atomic output
+    core      errors, config, atomic,  - error hierarchy, strict TOML reading, atomic output,
+              streams                    block-wise streaming statistics
     robot     model, urdf, kinematics, - the robot description (pure numpy)
               statics, inertia
     drive     envelope, dynamics,      - actuator torque envelope, engine-side drive dynamics
@@ -13,9 +14,9 @@ figures, and nothing imports the commands (enforced by tests/test_layering.py):
               disturbance, gaits.*       segment kinds, the segment controllers (pure numpy)
     record                             - THE ONLY MODULE THAT TOUCHES h5py
     engine    runner                   - THE ONLY MODULE THAT IMPORTS pybullet
-    loads     spectra, series, report, - records to duty spectra (never imports the engine)
-              rainflow, damage, mix,
-              tables
+    loads     spectra, series, report, - records to duty spectra (never imports the engine),
+              rainflow, damage, mix,     and the quality screen of a record judged
+              tables, quality
     checks    drivetrain_file, reducer - parts against spectra: reducers, bearings, contact,
               and its kinds, motor*,     gears, materials, motor, thermal, supply, report;
               duty_input,                the duty of a record or a mix, and the whole check

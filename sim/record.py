@@ -1,6 +1,9 @@
 """HDF5 run records: the only module that touches h5py.
 
-Layout (format_version 1; documented for users in README.md, "Run record"):
+Over 500 lines on purpose: the only module allowed to touch h5py holds both the streaming
+writer and the reader of the one layout.
+
+Layout (format_version 2; documented for users in README.md, "Run record"):
 
     /time_s                                 [sample]            s
     /joints/<joint>/angle_rad               [sample]            rad
@@ -26,7 +29,25 @@ Layout (format_version 1; documented for users in README.md, "Run record"):
     /histograms/<joint>/torque_time_nm_s    [torque_bin, speed_bin]   sum torque dt
     /histograms/<joint>/torque_edges_nm     [torque_bin + 1]
     /histograms/<joint>/speed_edges_rad_s   [speed_bin + 1]
-    /summary/<joint>                        attributes: exact per-step statistics
+    /summary/<joint>                        attributes: exact per-step statistics, and
+        power_exponents [k], torque_power_angle [k] ((N m)^p rad: sum |T|^p |w| dt of the load
+        torque over every step, one per exponent p), abs_angle_rad (sum |w| dt): the exact
+        equivalent torque is (torque_power_angle / abs_angle_rad)^(1/p)
+    /steps/<joint>/torque_nm, speed_rad_s, gearbox_torque_nm   [step]   the duty series every
+                                            step, written only when the other series are
+                                            decimated (group attributes period_s, start_s)
+    /quality                                attributes: the quality screen measured during the
+        run: chatter_cutoff_hz, chatter_filter, reversal_deadband_share_of_peak; recorded_s,
+        simulated_s, observed_s (time seen at control updates); slip_m and stance_travel_m
+        (stance-foot slip and the base travel under the stance feet, summed over feet);
+        touchdowns, bounces (lift-off within bounce_window_s of a touchdown); height_screened_s
+        and height_error_mean_m / _rms_m / _max_m (base height against the plan in segments
+        that hold a height: stand, walk, trot, bound, pronk), height_plan_mean_m (the plan)
+    /quality/<joint>                        attributes: torque_reversals_per_s (reversals of
+        the sign of the step-to-step change of the load torque, changes below 1e-6 of the
+        torque bin range left out), torque_high_frequency_share (RMS of the load torque less
+        its zero-phase low-pass at chatter_cutoff_hz over its RMS, over all steps but the
+        first and last 0.05 s; NaN if the record is too short)
 
 Sample ``i`` (time ``t_i``): joint and base state at the start of the engine step from ``t_i``
 to ``t_i + dt``; torques, contact forces and contact flags over that step.
@@ -37,8 +58,13 @@ losses are simulated (root attribute ``load_torque``, naming the series they fol
 
 Root attributes: format_version, tool_version, status, status_detail, scenario_toml,
 model_toml, time_step_s, sample_period_s, decimation, seed, engine_version, total_mass_kg,
-joint_names, leg_names, axis_convention. Further groups (phases, events, segments) may be
-added by the runner with :meth:`RecordWriter.append` and :meth:`RecordWriter.put`.
+joint_names, leg_names, axis_convention, planned_s (the scenario's length). Further groups
+(phases, events, segments) may be added by the runner with :meth:`RecordWriter.append` and
+:meth:`RecordWriter.put`.
+
+Format 1 records (no /quality, no power sums, no /steps) are still read: figures that need
+them say so; a decimated format 1 record has no every-step duty series, and the checks that
+need every step refuse it (:meth:`RunRecord.duty_unavailable_reason`).
 
 Writing is atomic: data go to a temporary file beside the target, renamed on success.
 """
@@ -56,8 +82,14 @@ import h5py
 import numpy as np
 
 from sim.core.errors import RecordError
+from sim.core.streams import HighFrequencyShare, PowerSums, SignReversals
 
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
+READABLE_VERSIONS = (1, 2)  # format 1: no /quality, no power sums, no /steps (see above)
+# life exponents whose exact power sums every record holds: 3 (ball bearings, many reducer
+# ratings), 10/3 (roller bearings) and 3.333 (the key `gaitload loads` uses by default)
+DEFAULT_LIFE_EXPONENTS: tuple[float, ...] = (3.0, 10.0 / 3.0, 3.333)
+CHATTER_CUTOFF_HZ = 100.0  # the control bandwidth above which torque content is chatter
 STATUSES = ("completed", "fell", "diverged", "interrupted")
 AXIS_CONVENTION = "sample-major: series are [sample] or [sample, component]"
 
@@ -79,6 +111,12 @@ _CHUNK_ROWS = 4096
 _READ_METADATA_CACHE_BYTES = 256 * 1024
 
 
+def chatter_cutoff_hz(dt: float) -> float:
+    """Cut-off of the high-frequency share: 100 Hz, or 0.4 / dt when the step is too long
+    for 100 Hz to lie well below the Nyquist frequency."""
+    return min(CHATTER_CUTOFF_HZ, 0.4 / dt)
+
+
 def _unit_for(name: str) -> str:
     return UNITS.get(name.rsplit("/", 1)[-1], "")
 
@@ -96,7 +134,8 @@ class RecordWriter:
                  torque_edges_nm: Mapping[str, np.ndarray],
                  speed_edges_rad_s: Mapping[str, np.ndarray],
                  attrs: Mapping[str, Any], compression: int = 4,
-                 compress_floats: bool = False):
+                 compress_floats: bool = False,
+                 life_exponents: Sequence[float] = DEFAULT_LIFE_EXPONENTS):
         self.path = Path(path)
         self.path.parent.mkdir(parents=True, exist_ok=True)
         self.tmp = self.path.with_name(f".{self.path.name}.{os.getpid()}.tmp")
@@ -130,6 +169,12 @@ class RecordWriter:
         self._overflow = np.zeros(n)
         self._steps = 0
         self._dt_total = 0.0
+        # every-step screen and moments (sim.core.streams), fed with each block of steps
+        exps = sorted(set(float(p) for p in life_exponents))
+        self._powers = PowerSums(n, exps)
+        self._reversals = SignReversals(n, [1e-6 * float(np.abs(self._tedges[j]).max())
+                                            for j in self.joint_names])
+        self._hf: HighFrequencyShare | None = None  # made at the first block (needs dt)
 
     # -- series -----------------------------------------------------------------------------
     def append(self, name: str, data: np.ndarray, dtype: str = "f8") -> None:
@@ -155,6 +200,12 @@ class RecordWriter:
         # write the cached chunks now: file space is then allocated in the order of the calls,
         # not in the order dataset handles happen to be released, so records are bit-identical
         ds.flush()
+
+    def put_attrs(self, group: str, attrs: Mapping[str, Any]) -> None:
+        """Set attributes on group ``group`` (created if needed)."""
+        g = self._f.require_group(group)
+        for k, v in attrs.items():
+            g.attrs[k] = v
 
     def put(self, name: str, data: Any, **attrs: Any) -> None:
         """Write a small fixed dataset (events, segment tables) in one go."""
@@ -191,6 +242,11 @@ class RecordWriter:
         self._sum_t2 += (t * t).sum(axis=0) * dt
         self._sum_t += t.sum(axis=0) * dt
         self._sat += np.asarray(saturated, float).sum(axis=0) * dt
+        self._powers.feed(t, w, dt)
+        self._reversals.feed(t)
+        if self._hf is None:
+            self._hf = HighFrequencyShare(t.shape[1], dt, chatter_cutoff_hz(dt))
+        self._hf.feed(t)
         for k, j in enumerate(self.joint_names):
             te, se = self._tedges[j], self._sedges[j]
             it = np.clip(np.searchsorted(te, t[:, k], side="right") - 1, 0, len(te) - 2)
@@ -216,6 +272,13 @@ class RecordWriter:
             raise ValueError(f"status must be one of {STATUSES}")
         f = self._f
         dur = self._dt_total
+        shares = None if self._hf is None else self._hf.shares()
+        g = f.require_group("quality")
+        g.attrs["chatter_cutoff_hz"] = np.nan if self._hf is None else self._hf.cutoff_hz
+        g.attrs["chatter_filter"] = ("centred (zero-phase) windowed-sinc FIR low-pass, Hamming "
+                                     "window, 2 x 0.05 s long; the first and last 0.05 s left "
+                                     "out (sim.core.streams.HighFrequencyShare)")
+        g.attrs["reversal_deadband_share_of_peak"] = 1e-6
         for k, j in enumerate(self.joint_names):
             g = f.require_group(f"histograms/{j}")
             for name, arr in (("time_s", self._hist[j]), ("revolutions", self._revs[j]),
@@ -237,6 +300,14 @@ class RecordWriter:
             s.attrs["peak_speed_rad_s"] = self._peak_w[k]
             s.attrs["saturated_s"] = self._sat[k]
             s.attrs["duration_s"] = dur
+            s.attrs["power_exponents"] = np.array(self._powers.exponents)
+            s.attrs["torque_power_angle"] = self._powers.power[:, k]
+            s.attrs["abs_angle_rad"] = self._powers.weight[k]
+            q = f.require_group(f"quality/{j}")
+            q.attrs["torque_reversals_per_s"] = (self._reversals.count[k] / dur if dur > 0
+                                                 else 0.0)
+            q.attrs["torque_high_frequency_share"] = (np.nan if shares is None
+                                                      else shares[k])
         f.attrs["status"] = status
         f.attrs["status_detail"] = detail
         f.attrs["steps"] = self._steps
@@ -309,10 +380,11 @@ class RunRecord:
             self._f.close()
             raise RecordError(str(self.path), "format_version",
                               "a gaitload run record (attribute missing)")
-        if int(ver) != FORMAT_VERSION:
+        if int(ver) not in READABLE_VERSIONS:
             self._f.close()
-            raise RecordError(str(self.path), "format_version",
-                              f"format version {FORMAT_VERSION}", int(ver))
+            raise RecordError(str(self.path), "format_version", "format version "
+                              + " or ".join(str(v) for v in READABLE_VERSIONS), int(ver))
+        self.format_version = int(ver)
 
     # metadata
     @property
@@ -385,15 +457,19 @@ class RunRecord:
 
     def iter_chunks(self, names: Sequence[str], rows: int = 262144, reuse: bool = False
                     ) -> Iterator[tuple[int, list[np.ndarray]]]:
-        """Yield ``(start_row, [array per name])`` over the sample axis, ``rows`` at a time.
+        """Yield ``(start_row, [array per name])`` over the rows of ``names`` (series of one
+        length: the sampled series, or the every-step duty series), ``rows`` at a time.
 
         With ``reuse`` the arrays are views of buffers read into again at the next step (valid
         until then): memory then holds one chunk, not the one being read plus the previous.
         """
-        n = self.n_samples
         for name in names:
             if name not in self._f:
                 raise RecordError(str(self.path), name, "this dataset in the record (missing)")
+        lengths = {int(self._f[nm].shape[0]) for nm in names}
+        if len(lengths) > 1:
+            raise RecordError(str(self.path), ", ".join(names), "series of one length")
+        n = lengths.pop() if lengths else 0
         if not reuse:
             for start in range(0, n, rows):
                 yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
@@ -435,6 +511,75 @@ class RunRecord:
         self.check_joint(joint)
         a = self._f[f"summary/{joint}"].attrs
         return JointSummary(**{k: float(a[k]) for k in JointSummary.__dataclass_fields__})
+
+    def power_sums(self, joint: str) -> tuple[dict[float, float], float] | None:
+        """``({p: sum |T|^p |w| dt}, sum |w| dt)`` of the load torque over every step, or None
+        (records of format 1)."""
+        self.check_joint(joint)
+        a = self._f[f"summary/{joint}"].attrs
+        if "power_exponents" not in a:
+            return None
+        return ({float(p): float(v) for p, v in zip(a["power_exponents"],
+                                                     a["torque_power_angle"], strict=True)},
+                float(a["abs_angle_rad"]))
+
+    def group_attrs(self, name: str) -> dict[str, Any] | None:
+        """Attributes of group ``name`` as plain values, or None if the record has none."""
+        if name not in self._f:
+            return None
+        out: dict[str, Any] = {}
+        for k, v in self._f[name].attrs.items():
+            out[k] = v.decode() if isinstance(v, bytes) else (
+                v.item() if isinstance(v, np.generic) else v)
+        return out
+
+    # every-step duty series (joint torque, reducer output torque, joint speed)
+    @property
+    def has_step_series(self) -> bool:
+        """True if the record keeps a separate every-step copy of the duty series (``/steps``:
+        written when the other series are decimated)."""
+        return "steps" in self._f
+
+    def duty_name(self, joint: str, quantity: str) -> str:
+        """Dataset of an every-step duty series (``torque_nm``, ``gearbox_torque_nm``,
+        ``speed_rad_s``): ``steps/<joint>/<quantity>`` in a decimated record, else
+        ``joints/<joint>/<quantity>``."""
+        return f"{'steps' if self.has_step_series else 'joints'}/{joint}/{quantity}"
+
+    @property
+    def duty_period_s(self) -> float:
+        """Time between the rows of the duty series (the simulation step when kept every step)."""
+        a = self.attrs
+        if self.has_step_series:
+            return float(a["time_step_s"])
+        return float(a.get("sample_period_s") or a["time_step_s"])
+
+    @property
+    def duty_length(self) -> int:
+        """Rows of the duty series (0 when the record holds histograms only)."""
+        name = self.duty_name(self.joint_names[0], "speed_rad_s")
+        return int(self._f[name].shape[0]) if name in self._f else 0
+
+    def require_duty_series(self) -> None:
+        """Raise :class:`RecordError` if the record lacks every-step duty series although it
+        has series (see :meth:`duty_unavailable_reason`)."""
+        reason = self.duty_unavailable_reason()
+        if reason:
+            raise RecordError(str(self.path), "decimation", reason)
+
+    def duty_unavailable_reason(self) -> str | None:
+        """Why this record has no every-step duty series (a decimated format-1 record), or
+        None. Figures built from series need every step: fewer samples miss peaks and cycles
+        and would make the figures look safer than the run was."""
+        dec = int(self.attrs.get("decimation", 1) or 1)
+        if dec > 1 and not self.has_step_series:
+            return (f"the record's series are decimated (record.decimation = {dec}) and it has "
+                    f"no every-step duty series (format {self.format_version}); rainflow, "
+                    "damage, peak events, motor, winding and battery figures need every "
+                    "step: re-run the scenario with this version of gaitload (which keeps "
+                    "the duty series every step at any decimation) or with "
+                    "record.decimation = 1")
+        return None
 
     def close(self) -> None:
         self._f.close()

@@ -28,3 +28,28 @@ def stand_record(tmp_path_factory) -> Path:
     res = run(scn, out)
     assert res.status == "completed", res.detail
     return out
+
+
+# a short demo trot: 0.5 s stand, 2.5 s trot, the first 1.5 s left out
+TROT = ["segment.1.duration_s=2.5", "record.start_s=1.5"]
+# the light shank's damping far above the explicit-PD limit (kd dt / I below about 2, measured):
+# the knees chatter at the clamp, period two steps, and the robot still trots
+CHATTER = [*TROT, "control.kd_nm_s_rad.knee=10"]
+
+
+@pytest.fixture(scope="session")
+def trot_records(tmp_path_factory) -> dict[str, Path]:
+    """Short demo trots: every step (dec1), decimated by 10 (dec10), and made to chatter."""
+    from sim.engine.runner import run
+    from sim.scenario.scenario_file import load_scenario
+
+    d = tmp_path_factory.mktemp("screen")
+    out = {}
+    for name, extra in (("dec1", []), ("dec10", ["record.decimation=10"]),
+                        ("chatter", CHATTER[len(TROT):])):
+        scn = load_scenario(SCENARIOS / "trot.toml", [*TROT, *extra,
+                                                      "record.life_exponents=[9.0]"])
+        res = run(scn, d / f"{name}.h5")
+        assert res.status == "completed", res.detail
+        out[name] = d / f"{name}.h5"
+    return out

@@ -24,10 +24,12 @@ def write_record(path: str | Path, duration_s: float, dt: float,
                  contact: dict[str, Callable[[np.ndarray], np.ndarray]] | None = None,
                  joints: Sequence[str] = ("fl_knee", "hr_hip"), series: bool = True,
                  status: str = "completed", block: int = 5000,
-                 torque_edges_nm: np.ndarray = TE, decimation: int = 1) -> Path:
+                 torque_edges_nm: np.ndarray = TE, decimation: int = 1,
+                 steps: bool = True) -> Path:
     """Record with the given signals (functions of time); ``series=False`` writes only the
     every-step histograms (as histogram-only recording does). ``decimation`` keeps every
-    n-th step in the series while the histograms see every step."""
+    n-th step in the series while the histograms see every step, and (with ``steps``, as
+    the simulator does) the duty series every step under ``/steps``."""
     speed = speed or {}
     n = round(duration_s / dt)
     attrs = {"tool_version": "test", "scenario_toml": "", "model_toml": "", "time_step_s": dt,
@@ -49,5 +51,9 @@ def write_record(path: str | Path, duration_s: float, dt: float,
                     w.append(f"joints/{j}/speed_rad_s", om[keep, k])
                 for leg, fn in (contact or {}).items():
                     w.append(f"feet/{leg}/contact", np.asarray(fn(t[keep])), dtype="i1")
+                if decimation > 1 and steps:
+                    for k, j in enumerate(joints):
+                        w.append(f"steps/{j}/torque_nm", tau[:, k])
+                        w.append(f"steps/{j}/speed_rad_s", om[:, k])
             w.accumulate(tau, om, np.zeros_like(tau), dt)
         return w.finish(status, "test record")

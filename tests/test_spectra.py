@@ -190,13 +190,35 @@ def test_histogram_only_record_says_series_figures_are_unavailable(tmp_path):
     assert any("histograms only" in n for n in rep.notes)
 
 
-def test_decimated_series_weights_samples_by_sample_period(tmp_path):
+def test_decimated_series_figures_read_every_step(tmp_path):
+    # a torque alternating at every step: decimated by 4 its samples are all +4 (no cycle);
+    # the figures read the every-step duty series and see every reversal
+    def sig(t):
+        return np.where(np.round(t / 0.001).astype(int) % 2 == 0, 4.0, -4.0)
+
+    contact = {"fl": lambda t: (t < 0.5).astype(int)}
+    every = write_record(tmp_path / "e.h5", 1.0, 0.001, {"fl_knee": sig}, contact=contact)
+    dec = write_record(tmp_path / "d.h5", 1.0, 0.001, {"fl_knee": sig}, contact=contact,
+                       decimation=4)
+    with open_record(every) as a, open_record(dec) as b:
+        fa = series_figures(a, ["fl_knee"], {}, hold_torque_nm=1.0)["fl_knee"]
+        fb = series_figures(b, ["fl_knee"], {}, hold_torque_nm=1.0)["fl_knee"]
+    assert fb.duration_s == pytest.approx(1.0)
+    assert fb.hold_time_s == pytest.approx(1.0)
+    # about one cycle per two steps (the 4th-step samples alone would give none)
+    assert fb.rainflow.total == fa.rainflow.total
+    assert fa.rainflow.total > 490
+    # the contact flags, sampled every 4th step, hold until the next sample: the split
+    # agrees with the every-step one (the flag changes at a sample here)
+    assert fb.stance is not None and fa.stance is not None
+    assert float(fb.stance.time_s.sum()) == pytest.approx(float(fa.stance.time_s.sum()))
+
+
+def test_a_decimated_record_without_every_step_series_is_refused(tmp_path):
     p = write_record(tmp_path / "d.h5", 1.0, 0.001, {"fl_knee": lambda t: 0 * t + 4.0},
-                     decimation=4)
-    with open_record(p) as rec:
-        f = series_figures(rec, ["fl_knee"], {}, hold_torque_nm=1.0)["fl_knee"]
-    assert f.duration_s == pytest.approx(1.0)
-    assert f.hold_time_s == pytest.approx(1.0)
+                     decimation=4, steps=False)
+    with open_record(p) as rec, pytest.raises(RecordError, match=r"record.decimation = 4"):
+        series_figures(rec, ["fl_knee"], {})
 
 
 def test_lone_record_usage_spectrum_is_the_record(tmp_path):

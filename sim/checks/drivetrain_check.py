@@ -4,7 +4,8 @@ Takes a duty (a run record or a usage mix, :mod:`.duty_input`), a drivetrain fil
 (:mod:`.drivetrain_file`) and the check settings, and gives the check report
 (:func:`check_drivetrain`): a ``reducer`` section per joint with a reducer and a duty
 (:mod:`.reducer`), a ``motor`` section per joint with a motor (:mod:`.motor`) and the
-whole-robot supply figures, gathered as :class:`~.report.CheckReport` (JSON with
+whole-robot supply figures, and the quality screen of the duty's records
+(:mod:`sim.loads.quality`), gathered as :class:`~.report.CheckReport` (JSON with
 :func:`~.report.to_json`). This is ``gaitload check`` as a function; the cycloid disc profiles
 of its ``--plot`` are :func:`write_disc_profiles`.
 """
@@ -16,13 +17,14 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 
 from sim.checks.drivetrain_file import Drivetrain, load_drivetrain
-from sim.checks.duty_input import load_duties, motor_duty_source
+from sim.checks.duty_input import duty_records, load_duties, motor_duty_source
 from sim.checks.motor import MotorReport, check_motors
 from sim.checks.motor_part import load_motor_part
 from sim.checks.reducer import NOT_MODELLED, CheckSettings, JointDuty, check_reducer
 from sim.checks.report import CheckReport, Section, add_not_modelled, add_section
 from sim.checks.supply import load_supply
 from sim.core.errors import InputError
+from sim.loads.quality import ScreenSet, screen_records
 
 
 def build_report(drivetrain: Drivetrain, duties: dict[str, JointDuty],
@@ -37,7 +39,8 @@ def build_report(drivetrain: Drivetrain, duties: dict[str, JointDuty],
             continue
         report = add_section(report, joint, check_reducer(drive.reducer, duties[joint],
                                                           settings))
-    extra = ["series decimation may hide short torque peaks when counting peak events"]
+    extra = ["peak events shorter than one simulation step (events are counted on the "
+             "every-step load torque)"]
     return add_not_modelled(report, [*NOT_MODELLED, *extra])
 
 
@@ -105,6 +108,7 @@ class DrivetrainCheck:
     drivetrain: Drivetrain
     report: CheckReport
     motors: MotorReport | None
+    quality: ScreenSet | None = None  # the quality screen of the duty's records
 
 
 def check_drivetrain(duty: str | Path, drivetrain: str | Path,
@@ -126,7 +130,9 @@ def check_drivetrain(duty: str | Path, drivetrain: str | Path,
         raise InputError(str(drivetrain), "joint",
                          "at least one joint with a reducer and a duty")
     report, motors = add_motor_checks(report, dt, Path(duty), mission_h, allow_failed)
-    return DrivetrainCheck(dt, report, motors)
+    screen = screen_records(duty_records(duty))
+    report = replace(report, quality=screen.to_json(), quality_text=screen.to_text())
+    return DrivetrainCheck(dt, report, motors, screen)
 
 
 def write_disc_profiles(drivetrain: Drivetrain, out_dir: str | Path) -> list[Path]:

@@ -69,6 +69,14 @@ def load_duties(path: str | Path, joints: Sequence[str], allow_failed: bool = Fa
                 for j in present}
 
 
+def duty_records(path: str | Path) -> list[Path]:
+    """The records behind a duty: the record itself, or every record of a usage mix."""
+    p = Path(path)
+    if p.suffix.lower() != ".toml":
+        return [p]
+    return [Path(e.path) for e in resolve_usage(p).entries]
+
+
 def motor_duty_source(path: Path) -> str | list[tuple[str, float]]:
     """A record path, or ``[(record, hours_per_day), ...]`` of a usage mix's duties."""
     if path.suffix.lower() != ".toml":

@@ -109,11 +109,14 @@ def simulated_drive_effects(rec: RunRecord) -> tuple[bool, bool]:
 
 
 def duty_chunks(rec: RunRecord, bank: MotorBank, rows: int) -> Iterator[DutyChunk]:
-    names = [f"joints/{j}/{q}" for j in bank.joints for q in ("torque_nm", "speed_rad_s")]
-    has_v = rec.has("base/velocity_m_s")
+    """The every-step duty series of ``rec`` (``/steps`` in a decimated record) in chunks of
+    ``rows`` steps, as motor operating points."""
+    names = [rec.duty_name(j, q) for j in bank.joints for q in ("torque_nm", "speed_rad_s")]
+    # the base velocity rides along when it has the duty series' rows (not decimated)
+    has_v = rec.has("base/velocity_m_s") and not rec.has_step_series
     if has_v:
         names.append("base/velocity_m_s")
-    dt = float(rec.attrs["sample_period_s"])
+    dt = rec.duty_period_s
     nj = len(bank.joints)
     rotors, losses = simulated_drive_effects(rec)
     # what the simulation already contains is not added again: with rotors simulated, the
@@ -156,3 +159,14 @@ def envelope_nm_bank(bank: MotorBank, w_m: np.ndarray, line_v: np.ndarray, t_lim
     lower = np.maximum(-t_lim, k * (-line_v - k * w_m) / r_hot)
     return lower, upper
 
+
+def sampled_distance_m(rec: RunRecord, rows: int) -> float | None:
+    """Horizontal distance travelled by the base: sum |v_xy| over the sampled base velocity
+    times the sample period (None without base velocity)."""
+    if not rec.has("base/velocity_m_s"):
+        return None
+    dt = float(rec.attrs["sample_period_s"])
+    dist = 0.0
+    for _, (v,) in rec.iter_chunks(["base/velocity_m_s"], rows):
+        dist += float(np.hypot(v[:, 0], v[:, 1]).sum()) * dt
+    return dist

@@ -24,6 +24,7 @@ from sim.checks.motor_duty import (
     MotorBank,
     duty_chunks,
     envelope_nm_bank,
+    sampled_distance_m,
     thermal_step_maps,
 )
 from sim.checks.motor_heating import thermal_analysis
@@ -270,8 +271,9 @@ def record_result(path: str | Path, weight: float, drives: Mapping[str, Drive],
         for j in bank.joints:
             rec.check_joint(j)
         attrs = rec.attrs
-        dt = float(attrs["sample_period_s"])
-        n = rec.n_samples
+        rec.require_duty_series()
+        dt = rec.duty_period_s  # every step: the figures do not depend on the decimation
+        n = rec.duty_length
         if n == 0:
             raise InputError(str(path), "time_s", "a record with at least one sample")
         thermal = thermal_analysis(rec, bank, dt, n, rows, mission_s)
@@ -283,6 +285,8 @@ def record_result(path: str | Path, weight: float, drives: Mapping[str, Drive],
                              rec.has("base/velocity_m_s"))
         for c in duty_chunks(rec, bank, rows_b):
             tally.add(c)
+        if rec.has_step_series:  # decimated: the distance from the sampled base velocity
+            tally.dist = sampled_distance_m(rec, rows)
         duration = n * dt
         total_mass_kg = float(attrs.get("total_mass_kg", 0.0))
     return RecordResult(

@@ -44,7 +44,12 @@ from sim.checks.reducer_part import (
 from sim.checks.report import Limit, Section, section_from_limits
 from sim.core.config import Field, load_toml, validate
 from sim.core.errors import InputError
-from sim.loads.spectra import JointSpectrum, equivalent_torque_nm, mean_abs_speed_rad_s
+from sim.loads.spectra import (
+    JointSpectrum,
+    equivalent_torque_detail,
+    equivalent_torque_nm,
+    mean_abs_speed_rad_s,
+)
 
 __all__ = ["KINDS", "CheckSettings", "JointDuty", "ReducerPart", "check_reducer",
            "count_excursions", "load_reducer_part", "max_speed_rad_s"]
@@ -227,6 +232,8 @@ def check_reducer(part: ReducerPart, duty: JointDuty,
              if lim.allowable_peak_torque_nm is not None]
     allow = min(peaks) if peaks else math.inf
     bd = backdrive_torque_nm(part)
+    # exact from the every-step power sums when the record holds the exponent, else binned
+    teq = equivalent_torque_detail(spec, float(getattr(part, "life_exponent", 10.0 / 3.0)))
     values = {
         "kind": part.kind, "part": part.file, "ratio": part.ratio,
         "life_h": life, "required_life_h": settings.required_life_h,
@@ -234,8 +241,9 @@ def check_reducer(part: ReducerPart, duty: JointDuty,
         "peak_torque_nm": spec.peak_torque_nm, "allowable_peak_torque_nm": allow,
         "peak_torque_ratio": spec.peak_torque_nm / allow if allow > 0 else math.inf,
         "duty_h": duty.hours, "mean_speed_rad_s": mean_abs_speed_rad_s(spec),
-        "equivalent_torque_nm": equivalent_torque_nm(
-            spec, float(getattr(part, "life_exponent", 10.0 / 3.0))),
+        "equivalent_torque_nm": teq["value"],
+        "equivalent_torque_route": teq["route"],
+        "equivalent_torque_bias_bound": teq["bias_bound"],
         "backdrive_torque_nm": bd, "backdrivable": math.isfinite(bd),
         "reflected_inertia_kg_m2": reflected_inertia_kg_m2(part),
         "backlash_rad": part.backlash_rad, "efficiency_forward": part.efficiency_forward,

@@ -110,6 +110,9 @@ class CheckReport:
     cautions: tuple[str, ...] = CAUTIONS
     supply: Mapping[str, Any] = field(default_factory=dict)  # whole-robot supply figures
     supply_text: tuple[str, ...] = ()  # lines shown under the tables
+    # the quality screen of the duty's records (sim.loads.quality.ScreenSet.to_json), its text
+    quality: Mapping[str, Any] | None = None
+    quality_text: str = ""
 
 
 def add_section(report: CheckReport, joint: str, section: Section) -> CheckReport:
@@ -153,6 +156,7 @@ def to_json_dict(report: CheckReport) -> dict[str, Any]:
         **({"supply": dict(report.supply)} if report.supply else {}),
         "not_modelled": list(report.not_modelled),
         "cautions": list(report.cautions),
+        **({"quality": dict(report.quality)} if report.quality is not None else {}),
     }
     return _finite(data)
 
@@ -197,6 +201,8 @@ def render_table(report: CheckReport) -> str:
         lines.append("")
     if report.not_modelled:
         lines.append("Not modelled: " + "; ".join(report.not_modelled) + ".")
+    if report.quality_text:
+        lines.append(report.quality_text)
     lines.extend(report.cautions)
     overall = "PASS" if exit_code(report) == 0 else "FAIL"
     lines.append(f"Overall: {overall}")

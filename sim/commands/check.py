@@ -2,14 +2,17 @@
 
 Parses the arguments, calls :func:`sim.checks.drivetrain_check.check_drivetrain` (the duty of
 a run record or a usage mix against the drivetrain's reducer and motor parts and its supply)
-and prints a table (or JSON with ``--json``). Exit code 0 when every joint passes, 1 when any
-fails, 2 on bad input (nothing is written then).
+and prints a table (or JSON with ``--json``) with the quality screen of the duty's records;
+a record that fails the screen gets its own ``QUALITY FLAGGED`` line (stderr with ``--json``).
+Exit code 0 when every joint passes, 1 when any fails (or, with ``--strict``, when a record
+is flagged), 2 on bad input (nothing is written then).
 """
 
 from __future__ import annotations
 
 import argparse
 import math
+import sys
 from pathlib import Path
 
 from sim.checks.drivetrain_check import check_drivetrain, write_disc_profiles
@@ -39,6 +42,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--mission-h", type=float, default=None,
                         help="also judge winding temperature over a mission of this many hours "
                              "from cold (default: continuous running, periodic steady state)")
+    parser.add_argument("--strict", action="store_true",
+                        help="exit 1 when a duty record fails the quality screen")
 
 
 def settings_from_args(args: argparse.Namespace) -> CheckSettings:
@@ -67,6 +72,9 @@ def execute(args: argparse.Namespace) -> int:
             plot_all(result.motors, out)
     if args.json:
         print(to_json(result.report), end="")
+        for line in result.quality.flag_lines() if result.quality else []:
+            print(line, file=sys.stderr)
     else:
         print(render_table(result.report), end="")
-    return exit_code(result.report)
+    flagged = result.quality is not None and result.quality.flagged
+    return max(exit_code(result.report), 1 if args.strict and flagged else 0)

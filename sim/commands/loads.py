@@ -3,6 +3,9 @@
 Parses the arguments, calls :func:`sim.loads.report.loads_report`, and prints a table (or the
 JSON of :meth:`~sim.loads.report.LoadsReport.to_json` with ``--json``); ``--csv`` and
 ``--plot`` write :func:`sim.loads.tables.write_csv` and the figures of :mod:`sim.figures.loads`.
+The quality screen of every record follows the table (``"quality"`` in the JSON); a record
+that fails it gets its own ``QUALITY FLAGGED`` line (on stderr with ``--json``), and
+``--strict`` makes that exit 1.
 """
 
 from __future__ import annotations
@@ -53,6 +56,8 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="print only JSON on stdout")
     parser.add_argument("--allow-failed", action="store_true",
                         help="read records whose run did not complete")
+    parser.add_argument("--strict", action="store_true",
+                        help="exit 1 when a record fails the quality screen")
 
 
 def write_plots(report: LoadsReport, directory: str | Path) -> list[Path]:
@@ -93,6 +98,8 @@ def _text(report: LoadsReport) -> str:
     if jl0 is not None:
         lines.append("sources: " + ", ".join(f"{k}={v}" for k, v in jl0.sources.items()))
     lines += [f"note: {n}" for n in report.notes]
+    if report.quality is not None:
+        lines.append(report.quality.to_text())
     return "\n".join(lines) + "\n"
 
 
@@ -110,8 +117,11 @@ def execute(args: argparse.Namespace) -> int:
         written += write_plots(report, args.plot)
     if args.json:
         sys.stdout.write(report.to_json())
+        for line in report.quality.flag_lines() if report.quality else []:
+            print(line, file=sys.stderr)
     else:
         sys.stdout.write(_text(report))
         for p in written:
             sys.stdout.write(f"wrote {p}\n")
-    return 0
+    flagged = report.quality is not None and report.quality.flagged
+    return 1 if args.strict and flagged else 0

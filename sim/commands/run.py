@@ -1,4 +1,11 @@
-"""``gaitload run SCENARIO.toml [-o OUT.h5] [--set KEY=VALUE ...] [--json]``."""
+"""``gaitload run SCENARIO.toml [-o OUT.h5] [--set KEY=VALUE ...] [--json] [--strict]``.
+
+Simulates the scenario (:func:`sim.engine.runner.run`), screens the record
+(:func:`sim.loads.quality.screen_records`) and prints the per-joint figures and the screen; a
+record that fails the screen gets its own ``QUALITY FLAGGED`` line (on stderr with
+``--json``). Exit 3 when the robot fell or diverged, else 1 with ``--strict`` when the record
+is flagged, else 0.
+"""
 
 from __future__ import annotations
 
@@ -21,6 +28,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="override a scenario key (ground.friction=0.5) or a model key under "
                         "robot. (robot.leg.thigh_length_m=0.24); repeatable")
     p.add_argument("--json", action="store_true", help="print only a JSON summary on stdout")
+    p.add_argument("--strict", action="store_true",
+                   help="exit 1 when the record fails the quality screen")
 
 
 def format_table(result) -> str:
@@ -39,15 +48,22 @@ def execute(args: argparse.Namespace) -> int:
 
     out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
     result = run(scn, out, progress=not args.json)
+    from sim.loads.quality import screen_records
+
+    screen = screen_records([result.record])
     if args.json:
-        print(json.dumps(result.to_json(), indent=2))
+        print(json.dumps({**result.to_json(), "quality": screen.to_json()}, indent=2,
+                         allow_nan=False))
+        for line in screen.flag_lines():
+            print(line, file=sys.stderr)
     else:
         print(f"record: {result.record}  status: {result.status}  "
               f"mass: {result.total_mass_kg:.2f} kg  simulated: {scn.duration_s:g} s")
         print(format_table(result))
+        print(screen.to_text())
         print(CAUTION)
     if result.status in ("fell", "diverged"):
         print(f"gaitload run: the robot {result.status}: {result.detail}; record kept for "
               f"inspection, not a valid duty cycle", file=sys.stderr)
         return 3
-    return 0
+    return 1 if args.strict and screen.flagged else 0

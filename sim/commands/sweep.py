@@ -1,4 +1,9 @@
-"""``gaitload sweep SWEEP.toml [-o DIR] [--workers N] [--cluster ADDRESS] [--json]``."""
+"""``gaitload sweep SWEEP.toml [-o DIR] [--workers N] [--cluster ADDRESS] [--json] [--strict]``.
+
+Cases whose records fail the quality screen are ranked after the clean ones, marked ``*`` in
+the table and ``quality`` in the CSV and JSON, and each gets its own ``QUALITY FLAGGED`` line
+(stderr with ``--json``); ``--strict`` makes any flagged case exit 1.
+"""
 
 from __future__ import annotations
 
@@ -27,6 +32,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                         "records there (default: records are sent back to this machine)")
     p.add_argument("--no-plots", action="store_true", help="write no plots")
     p.add_argument("--json", action="store_true", help="print only the JSON summary on stdout")
+    p.add_argument("--strict", action="store_true",
+                   help="exit 1 when a case's record fails the quality screen")
 
 
 def execute(args: argparse.Namespace) -> int:
@@ -53,11 +60,15 @@ def execute(args: argparse.Namespace) -> int:
     summary = result.summary()
     print(f"gaitload sweep: {len(result.cases)} cases, {result.n_run} run, {result.n_reused} "
           f"reused, {elapsed:.1f} s", file=sys.stderr)
+    flags = [f"QUALITY FLAGGED case {c.index} ({result.record_path(c.index)}): {c.quality}"
+             for c in result.cases if c.flagged]
     if args.json:
         doc = dict(summary, results_csv=str(csv_path), summary_json=str(json_path),
                    plots=[str(p) for p in plots], cases_run=result.n_run,
                    cases_reused=result.n_reused)
         print(json.dumps(jsonable(doc), indent=2))
+        for line in flags:
+            print(line, file=sys.stderr)
     else:
         print(format_table(result))
         w, r = summary["winner"], summary["runner_up"]
@@ -65,6 +76,8 @@ def execute(args: argparse.Namespace) -> int:
             print(f"no case completed; see {csv_path} for each status and reason")
         else:
             text = f"winner: case {w['case']} {w['params']}  {sweep.rank_metric} = {w['value']:.6g}"
+            if w["flagged"]:
+                text += " (flagged by the quality screen: no clean case)"
             if r is not None:
                 m = summary["margin"]
                 rel = "" if m["rel"] is None else f" ({100 * m['rel']:.2f} %)"
@@ -73,6 +86,10 @@ def execute(args: argparse.Namespace) -> int:
         failed = [c for c in result.cases if c.status != "completed"]
         for c in failed:
             print(f"case {c.index} {c.status}: {c.reason}")
+        for line in flags:
+            print(line)
         print(f"table: {csv_path}  summary: {json_path}")
         print(CAUTION)
-    return 0 if result.ranked else 3
+    if not result.ranked:
+        return 3
+    return 1 if args.strict and flags else 0

@@ -1,5 +1,7 @@
 """Foundations every stage uses: the error hierarchy (:mod:`.errors`, every user error an
 ``InputError`` naming file, key and expectation), strict TOML reading and validation against
-field specs (:mod:`.config`), and atomic file output (:mod:`.atomic`: a file is either complete
-or absent). Takes nothing from the other stages; gives them these three services.
+field specs (:mod:`.config`), atomic file output (:mod:`.atomic`: a file is either complete
+or absent) and block-wise streaming statistics of series (:mod:`.streams`: power sums, sign
+reversals, zero-phase high-frequency share). Takes nothing from the other stages; gives them
+these services.
 """

@@ -3,7 +3,9 @@
 Takes the engine world; gives ``measure(i_step, q, qd, base, contact) -> RobotState`` (the
 state the segment controllers see, plain floats; anything not given is read from the engine)
 and ``observe(state, ctrl, summary, dt_update)`` (touchdown and lift-off events and the
-locomotion figures of :class:`sim.engine.summary.RunSummary`, at each control update).
+locomotion figures of :class:`sim.engine.summary.RunSummary`, at each control update,
+with the screen's parts: base travel under the stance feet, touchdown bounces and the base
+height against the segment's plan).
 """
 
 from __future__ import annotations
@@ -13,7 +15,7 @@ from collections.abc import Callable
 from typing import Any
 
 from sim import JOINT_NAMES
-from sim.engine.summary import RunSummary
+from sim.engine.summary import BOUNCE_WINDOW_S, RunSummary
 from sim.engine.world import FOOT_LINKS, JOINT_INDICES, Engine, pb
 from sim.scenario.segments import RobotState, SegmentController
 
@@ -61,6 +63,8 @@ def make_observer(eng: Engine, foot_radius_m: float, events: dict[str, list[list
     r, c = eng.robot, eng.cid
     prev_contact = [True] * 4
     r_foot = foot_radius_m
+    last_td = [-math.inf] * 4  # time of each foot's last touchdown
+    window = BOUNCE_WINDOW_S
 
     def observe(state: RobotState, ctrl: SegmentController, acc: RunSummary,
                 dtu: float) -> None:
@@ -70,7 +74,14 @@ def make_observer(eng: Engine, foot_radius_m: float, events: dict[str, list[list
         t_now = state.t_s
         for k in range(4):
             if cont[k] != prev_contact[k]:
-                events["touchdown" if cont[k] else "liftoff"][k].append(t_now)
+                if cont[k]:
+                    events["touchdown"][k].append(t_now)
+                    acc.touchdowns += 1
+                    last_td[k] = t_now
+                else:
+                    events["liftoff"][k].append(t_now)
+                    if t_now - last_td[k] <= window:
+                        acc.bounces += 1
         prev_contact = cont
         Rl = state.base_rotation_list
         yaw = math.atan2(Rl[1][0], Rl[0][0])
@@ -84,7 +95,17 @@ def make_observer(eng: Engine, foot_radius_m: float, events: dict[str, list[list
         if acc.p0 is None:
             acc.p0 = [float(pos[0]), float(pos[1])]
         acc.p1 = [float(pos[0]), float(pos[1])]
+        plan_z = acc.plan_base_z_m
+        if plan_z is not None:
+            e = pos[2] - plan_z
+            acc.h_time_s += dtu
+            acc.h_err_m_s += e * dtu
+            acc.h_err2_m2_s += e * e * dtu
+            acc.h_plan_m_s += plan_z * dtu
+            if abs(e) > acc.h_err_max_m:
+                acc.h_err_max_m = abs(e)
         if any(cont):
+            acc.stance_travel_m += math.hypot(v[0], v[1]) * dtu * sum(cont)
             ls = pb.getLinkStates(r, FOOT_LINKS, computeLinkVelocity=1, physicsClientId=c)
             for k in range(4):
                 if cont[k]:

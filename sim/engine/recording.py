@@ -7,6 +7,8 @@ load torque, joint speed, saturation flag and motor-side torque of the twelve jo
 how many steps are buffered), ``sample(row)`` (every ``record.decimation``-th step: time, joint
 and base state, torques, foot forces and flags, planned stance; ``SAMPLE_COLUMNS`` numbers) and
 ``flush()`` (at ``BLOCK`` buffered steps, at each segment end and at the end of the run).
+When the series are decimated, each flush also writes the duty series the checks need
+(joint torque, joint speed, reducer output torque) every step under ``/steps/<joint>/``.
 Buffers are flat ``array('d')`` that the loop extends with plain float lists (no numpy call
 per step); a flush hands them to numpy once per block.
 """
@@ -31,9 +33,12 @@ SAMPLE_COLUMNS = 1 + 12 * 5 + 13 + 12 + 4 + 4  # time, joints, base, forces, con
 class StepRecorder:
     """Buffers of one run and their flush into the record (see the module docstring)."""
 
-    def __init__(self, w: RecordWriter, eng: Engine, series: bool, pushes: bool, dt: float):
+    def __init__(self, w: RecordWriter, eng: Engine, series: bool, pushes: bool, dt: float,
+                 decimation: int = 1):
         self.w, self.eng, self.drv = w, eng, eng.drive
         self.series, self.pushes, self.dt = series, pushes, dt
+        # decimated series: the duty series the checks need are also kept every step
+        self.step_series = series and decimation > 1
         self.steps = array("d")
         self.samples = array("d")
         self.external = array("d")
@@ -82,11 +87,22 @@ class StepRecorder:
                          blk[:, 36:48] if self.drv.records else None)
             self.summary.work_j += float(np.maximum(blk[:, 0:12] * blk[:, 12:24],
                                                     0.0).sum()) * dt
+            if self.step_series:
+                self._write_steps(blk)
             self.n_steps = 0
         if self.n_samples and self.series:
             self._write_series(self._take(self.samples, SAMPLE_COLUMNS))
         del self.samples[:]
         self.n_samples = 0
+
+    def _write_steps(self, blk: np.ndarray) -> None:
+        """The every-step duty series of a decimated record: ``/steps/<joint>/...``."""
+        w = self.w
+        for k, jn in enumerate(JOINT_NAMES):
+            w.append(f"steps/{jn}/torque_nm", blk[:, 36 + k])
+            w.append(f"steps/{jn}/speed_rad_s", blk[:, 12 + k])
+            if self.drv.records:
+                w.append(f"steps/{jn}/gearbox_torque_nm", blk[:, k])
 
     def _write_series(self, s_: np.ndarray) -> None:
         w = self.w

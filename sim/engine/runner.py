@@ -38,7 +38,7 @@ from sim.engine.observe import make_measure, make_observer
 from sim.engine.recording import BLOCK, StepRecorder
 from sim.engine.summary import RunResult, RunSummary
 from sim.engine.world import FOOT_LINKS, JOINT_INDICES, Engine, pb, quat_rotate
-from sim.record import RecordWriter
+from sim.record import DEFAULT_LIFE_EXPONENTS, RecordWriter
 from sim.robot.statics import StanceStatics
 from sim.scenario.scenario_file import Scenario
 from sim.scenario.segments import SegmentController, make_controller, stance_angles
@@ -107,7 +107,21 @@ def _record_attrs(scn: Scenario, eng: Engine, start_step: int) -> dict[str, Any]
         "load_torque": "gearbox_torque_nm" if eng.drive.records else "torque_nm",
         "scenario_file": os.path.basename(scn.file),
         "world_frame": "ground frame: z normal to the ground, x up the slope",
+        "planned_s": scn.duration_s,
     }
+
+
+# segment kinds that hold a planned body height (posture changes and jumps move it on purpose)
+HEIGHT_HELD_KINDS = ("stand", "walk", "trot", "bound", "pronk")
+
+
+def _plan_base_z(scn: Scenario, statics: StanceStatics, seg: dict[str, Any]) -> float | None:
+    """Planned height of the base frame origin in a segment that holds one, else None: the
+    segment's stance hip height (or the model's) less the hips' height in the base frame."""
+    if seg["kind"] not in HEIGHT_HELD_KINDS:
+        return None
+    h = seg.get("stance_height_m") or scn.model.data["stance"]["hip_height_m"]
+    return float(h) - float(statics.kin.hip_m[:, 2].mean())
 
 
 class _Loop:
@@ -252,8 +266,12 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     seg_sums: list[RunSummary] = []
     events: dict[str, list[list[float]]] = {"touchdown": [[], [], [], []],
                                             "liftoff": [[], [], [], []]}
-    with RecordWriter(out_path, JOINT_NAMES, te, se, attrs) as w:
-        rec = StepRecorder(w, eng, d["record"]["series"], bool(d.get("push")), dt)
+    exps = (*DEFAULT_LIFE_EXPONENTS, *d["record"].get("life_exponents", ()))
+    with RecordWriter(out_path, JOINT_NAMES, te, se, attrs, life_exponents=exps) as w:
+        rec = StepRecorder(w, eng, d["record"]["series"], bool(d.get("push")), dt,
+                           d["record"]["decimation"])
+        if rec.step_series:
+            w.put_attrs("steps", {"period_s": dt, "start_s": start_step * dt})
         loop = _Loop(scn, eng, rec, statics, events)
         if progress and sys.stderr.isatty():
             from tqdm import tqdm
@@ -263,7 +281,7 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         try:
             for seg, ctrl, nsteps in zip(segs, ctrls, seg_steps, strict=True):
                 seg_start = loop.i_global
-                seg_sum = RunSummary()
+                seg_sum = RunSummary(_plan_base_z(scn, statics, seg))
                 seg_sums.append(seg_sum)
                 rec.summary = seg_sum
                 loop.segment(seg, ctrl, nsteps, seg_sum)
@@ -310,6 +328,8 @@ def _finish(w: RecordWriter, eng: Engine, loop: _Loop,
     for ss in seg_sums:
         total.add(ss)
     run_figs = total.figures(weight_n)
+    w.put_attrs("quality", {**total.screen_figures(), "simulated_s": loop.i_global * loop.dt,
+                            "recorded_s": max(0, loop.i_global - loop.start_step) * loop.dt})
     path = w.finish(loop.status, loop.detail, simulated_s=loop.i_global * loop.dt,
                     **{f"summary_{k}": np.nan if v is None else v for k, v in run_figs.items()})
     return path, seg_figs, run_figs

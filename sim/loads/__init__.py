@@ -4,5 +4,7 @@ equivalent torques, RMS, load-duration), figures from the time series (:mod:`.se
 stance/swing, exceedances, hold time), everything the loads command reports
 (:mod:`.report`) and its CSV tables (:mod:`.tables`), rainflow cycle counts
 (:mod:`.rainflow`, ASTM E1049), Miner damage and exact cycle totals (:mod:`.damage`) and
-usage mixes (:mod:`.mix`). Reads records through :mod:`sim.record`; never imports the engine.
+usage mixes (:mod:`.mix`), and the quality screen of a record judged against stated
+thresholds (:mod:`.quality`). Reads records through :mod:`sim.record`; never imports the
+engine.
 """

@@ -27,6 +27,7 @@ from sim.loads.damage import (
     cycle_matrix_edges,
 )
 from sim.loads.mix import UsageMix, usage_from_inputs
+from sim.loads.quality import ScreenSet, screen_records
 from sim.loads.series import (
     DEFAULT_HOLD_SPEED_RAD_S,
     DEFAULT_HOLD_TORQUE_NM,
@@ -39,6 +40,7 @@ from sim.loads.series import (
 from sim.loads.spectra import (
     JointSpectrum,
     combine_spectra,
+    equivalent_torque_detail,
     equivalent_torque_nm,
     mean_abs_speed_rad_s,
     parse_exponent,
@@ -91,6 +93,9 @@ class JointLoads:
             "rms_torque_nm": rms_torque_nm(sp),
             "mean_abs_speed_rad_s": mean_abs_speed_rad_s(sp),
             "equivalent_torque_nm": dict(self.equivalent_torque_nm),
+            "equivalent_torque_route": {
+                k: {key: v for key, v in equivalent_torque_detail(sp, parse_exponent(k)).items()
+                    if key != "value"} for k in self.exponents},
             "revolutions": float(sp.revolutions.sum()),
             "quadrants": quadrant_split(sp),
         }
@@ -116,7 +121,10 @@ class JointLoads:
                         "peak_torque_nm": ps.peak_torque_nm,
                         "mean_abs_speed_rad_s": mean_abs_speed_rad_s(ps),
                         "equivalent_torque_nm": {k: equivalent_torque_nm(ps, parse_exponent(k))
-                                                 for k in self.exponents}}
+                                                 for k in self.exponents},
+                        "equivalent_torque_bias_bound": {
+                            k: equivalent_torque_detail(ps, parse_exponent(k))["bias_bound"]
+                            for k in self.exponents}}
             d["phases"] = phases or None
             c = s.rainflow
             d["rainflow"] = {"cycles": c.total,
@@ -164,6 +172,7 @@ class LoadsReport:
     joints: dict[str, JointLoads]
     notes: tuple[str, ...] = field(default_factory=tuple)
     sn_curve: BasquinCurve | None = None
+    quality: ScreenSet | None = None  # the quality screen of every record of the mix
 
     def to_dict(self) -> dict[str, Any]:
         m = self.mix
@@ -181,12 +190,13 @@ class LoadsReport:
                           "exponent": self.sn_curve.exponent,
                           "cutoff_range_nm": self.sn_curve.cutoff_range}),
             "notes": list(self.notes),
+            "quality": None if self.quality is None else self.quality.to_json(),
         }
 
     def to_json(self) -> str:
         """The JSON text of ``gaitload loads --json`` (:meth:`to_dict`, indent 2, a final
         newline)."""
-        return json.dumps(self.to_dict(), indent=2, sort_keys=False) + "\n"
+        return json.dumps(self.to_dict(), indent=2, sort_keys=False, allow_nan=False) + "\n"
 
 
 CAUTION = ("Results are estimates from simulated duty: manufacturer ratings, local codes and "
@@ -213,8 +223,7 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
     notes = [CAUTION,
              "Rainflow: ASTM E1049-85 section 5.4.4 on each record separately; the residue of "
              "each record is counted as half cycles; counts are scaled by the entry weights.",
-             "Equivalent torque: revolution-weighted p-mean of the exact in-bin mean torques "
-             "(histogram source, every simulation step)."]
+             _teq_note(spectra, exps)]
     if not mix.daily:
         notes.append("Records stand for themselves: 'per day' means one pass of the records.")
     levels = {j: (tuple(levels_nm) if levels_nm is not None
@@ -252,10 +261,36 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
         else:
             for k in ("hold", "exceedances", "rainflow", "phases"):
                 sources[k] = "unavailable: " + (reason or "no series")
+        exact = all(equivalent_torque_detail(sp, p)["route"] == "exact" for p in exps.values())
+        sources["equivalent_torque_nm"] = "exact power sums" if exact else "histogram"
         out[j] = JointLoads(j, sp, tuple(exponents),
                             {k: equivalent_torque_nm(sp, p) for k, p in exps.items()},
                             hold_speed_rad_s, hold_torque_nm, ser, sources, dmg)
-    return LoadsReport(mix, out, tuple(notes), sn_curve)
+    return LoadsReport(mix, out, tuple(notes), sn_curve,
+                       screen_records([e.path for e in mix.entries]))
+
+
+def _teq_note(spectra: dict[str, JointSpectrum], exps: dict[str, float]) -> str:
+    """Which route each exponent's equivalent torque took, with the histogram route's bound."""
+    exact, binned = [], []
+    for k, p in exps.items():
+        det = [equivalent_torque_detail(sp, p) for sp in spectra.values()]
+        if det and all(d["route"] == "exact" for d in det):
+            exact.append(k)
+        else:
+            bounds = [d["bias_bound"] for d in det if d["route"] != "exact"]
+            worst = (None if any(b is None for b in bounds) or not bounds
+                     else max(b for b in bounds if b is not None))
+            binned.append(f"p = {k} from the bins, low by at most "
+                          + ("(no bound for p < 1)" if worst is None
+                             else f"{100 * worst:.3g} % (chord bound)"))
+    parts = []
+    if exact:
+        parts.append("p = " + ", ".join(exact) + " exact from the every-step sums of "
+                     "|T|^p |w| dt")
+    parts += binned
+    return ("Equivalent torque (revolution-weighted p-mean): " + "; ".join(parts) + ". The "
+            "bins' in-bin means raised to p underestimate the mean of |T|^p (Jensen).")
 
 
 def with_cycle_matrices(report: LoadsReport, bins: int = CYCLE_MATRIX_BINS,

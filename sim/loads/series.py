@@ -1,7 +1,8 @@
 """Figures from the stored time series of a record: rainflow, stance/swing, exceedances, hold.
 
-Takes a run record with time series (``/joints/<joint>/...`` and ``/feet/<leg>/contact``,
-sampled every ``sample_period_s``) and gives per joint its :class:`SeriesFigures`
+Takes a run record with time series (the every-step duty series, ``/joints/<joint>/...`` or
+``/steps/<joint>/...`` when the other series are decimated, and ``/feet/<leg>/contact``) and
+gives per joint its :class:`SeriesFigures`
 (:func:`series_figures`): rainflow cycle totals of the load torque, the stance/swing split of
 the spectrum, exceedance counts and time held at near-zero speed; and the rainflow cycle
 matrices on given edges (:func:`cycle_matrices`). Records written histogram-only have no
@@ -14,7 +15,7 @@ cycles are not kept but added up as they close (:class:`sim.loads.damage.CycleTa
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -152,8 +153,16 @@ class _JointAccumulator:
 
 
 def series_unavailable_reason(rec: RunRecord, joints: Sequence[str]) -> str | None:
-    """Why the series figures cannot be computed for ``rec`` (None if they can)."""
-    if rec.n_samples == 0 or not all(rec.has(f"joints/{j}/torque_nm") for j in joints):
+    """Why the series figures cannot be computed for ``rec`` (None if they can).
+
+    A record whose series are decimated but which lacks the every-step duty series (format
+    1) is refused instead (:meth:`sim.record.RunRecord.require_duty_series`): its figures
+    would look safer than the run was."""
+    if rec.n_samples == 0:
+        return (f"{rec.path} holds histograms only (no time series): rainflow, stance/swing, "
+                "exceedance counts and series-based hold time are unavailable")
+    rec.require_duty_series()
+    if not all(rec.has(rec.duty_name(j, "torque_nm")) for j in joints):
         return (f"{rec.path} holds histograms only (no time series): rainflow, stance/swing, "
                 "exceedance counts and series-based hold time are unavailable")
     return None
@@ -167,15 +176,16 @@ def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str
     """Series figures of ``joints`` of one record, read in chunks of ``rows`` samples.
 
     The stance/swing split of a joint uses the contact flag of its own leg (joint name
-    prefix before ``_``); without ``/feet/<leg>/contact`` the split is None. Each sample
-    counts for ``sample_period_s``. The rainflow totals hold the Miner sum on each of
+    prefix before ``_``); without ``/feet/<leg>/contact`` the split is None. Every step of
+    the load torque and speed is read (``/steps`` in a decimated record) and counts for the
+    time step; the decimated contact flags hold between their samples. The rainflow totals hold the Miner sum on each of
     ``sn_curves`` (and no cycle matrix). Raises :class:`RecordError` if the record has no
     series.
     """
     reason = series_unavailable_reason(rec, joints)
     if reason:
         raise RecordError(str(rec.path), "joints", "time series in the record: " + reason)
-    dt = float(rec.attrs.get("sample_period_s") or rec.attrs["time_step_s"])
+    dt = rec.duty_period_s
     legs = {j: j.split("_", 1)[0] for j in joints}
     leg_ok = {leg: rec.has(f"feet/{leg}/contact") for leg in set(legs.values())}
     accs = {}
@@ -185,21 +195,44 @@ def series_figures(rec: RunRecord, joints: Sequence[str], levels_nm: Mapping[str
                                     hold_torque_nm, leg_ok[legs[j]], sn_curves)
     names: list[str] = []
     for j in joints:
-        names += [load_series_name(rec, j), f"joints/{j}/speed_rad_s"]
+        names += [load_series_name(rec, j), rec.duty_name(j, "speed_rad_s")]
     leg_list = sorted(leg for leg, ok in leg_ok.items() if ok)
-    names += [f"feet/{leg}/contact" for leg in leg_list]
-    for _, arrays in rec.iter_chunks(names, rows, reuse=True):
-        contact = {leg: arrays[2 * len(joints) + k] for k, leg in enumerate(leg_list)}
+    for arrays, flags in _duty_with_contact(rec, names, leg_list, rows):
+        contact = dict(zip(leg_list, flags, strict=True))
         for k, j in enumerate(joints):
             accs[j].feed(np.asarray(arrays[2 * k], float), np.asarray(arrays[2 * k + 1], float),
                          contact.get(legs[j]))
     return {j: a.result() for j, a in accs.items()}
 
 
+def _duty_with_contact(rec: RunRecord, names: list[str], legs: list[str], rows: int
+                       ) -> Iterator[tuple[list[np.ndarray], list[np.ndarray]]]:
+    """Chunks of the duty series ``names`` with the contact flags of ``legs`` beside them.
+
+    In a decimated record the flags are sampled every ``decimation`` steps (sample ``i`` at
+    step ``i * decimation`` of the duty series); each flag then holds for the steps up to the
+    next sample."""
+    contact = [f"feet/{leg}/contact" for leg in legs]
+    if not rec.has_step_series:
+        for _, arrays in rec.iter_chunks(names + contact, rows, reuse=True):
+            yield arrays[:len(names)], arrays[len(names):]
+        return
+    dec = int(rec.attrs["decimation"])
+    rows = max(dec, rows // dec * dec)
+    flags = rec.iter_chunks(contact, rows // dec) if contact else None
+    for _, arrays in rec.iter_chunks(names, rows, reuse=True):
+        held: list[np.ndarray] = []
+        if flags is not None:
+            _, f = next(flags)
+            held = [np.repeat(x, dec)[:arrays[0].shape[0]] for x in f]
+        yield arrays, held
+
+
 def load_series_name(rec: RunRecord, joint: str) -> str:
-    """Dataset of the load torque of ``joint``: the reducer output torque series
-    (``gearbox_torque_nm`` when rotors or reducer losses were simulated, else ``torque_nm``)."""
-    return f"joints/{joint}/{rec.attrs.get('load_torque', 'torque_nm')}"
+    """Dataset of the every-step load torque of ``joint``: the reducer output torque series
+    (``gearbox_torque_nm`` when rotors or reducer losses were simulated, else ``torque_nm``),
+    under ``/steps`` in a decimated record (:meth:`sim.record.RunRecord.duty_name`)."""
+    return rec.duty_name(joint, str(rec.attrs.get("load_torque", "torque_nm")))
 
 
 def cycle_matrices(rec: RunRecord, edges: Mapping[str, tuple[np.ndarray, np.ndarray]],

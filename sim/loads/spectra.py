@@ -11,8 +11,10 @@ the ``gaitload loads`` command reports is gathered by :mod:`sim.loads.report`.
 Post-processing works on records alone and never imports the physics engine.
 
 Library API for later checks: :func:`usage_spectra` (spectra of one day of use of a
-:class:`sim.loads.mix.UsageMix`), :func:`spectrum_from_record`, :func:`equivalent_torque_nm`,
-:func:`mean_abs_speed_rad_s`, :func:`rms_torque_nm`.
+:class:`sim.loads.mix.UsageMix`), :func:`spectrum_from_record`, :func:`equivalent_torque_nm`
+(exact from the record's every-step power sums when it holds the exponent, else from the
+bins with the bias bound of :func:`equivalent_torque_bounds`), :func:`mean_abs_speed_rad_s`,
+:func:`rms_torque_nm`.
 """
 
 from __future__ import annotations
@@ -54,6 +56,10 @@ class JointSpectrum:
         torque_time_nm_s: ``[nt, ns]`` sum of torque x time in each bin (N m s), or None.
         torque_sq_time_nm2_s: exact integral of torque^2 dt over the whole spectrum (N^2 m^2 s)
             or None (then RMS is estimated from the bins).
+        power_sums: ``{p: sum |T|^p |w| dt}`` over every step ((N m)^p rad) for the life
+            exponents the record holds, or None; with ``abs_angle_rad`` (sum |w| dt) they give
+            the exact equivalent torque (:func:`equivalent_torque_nm`).
+        abs_angle_rad: sum |w| dt over every step (rad), or None.
     """
 
     joint: str
@@ -67,6 +73,8 @@ class JointSpectrum:
     torque_revolutions_nm: np.ndarray | None = None
     torque_time_nm_s: np.ndarray | None = None
     torque_sq_time_nm2_s: float | None = None
+    power_sums: dict[float, float] | None = None
+    abs_angle_rad: float | None = None
 
     @property
     def torque_centres_nm(self) -> np.ndarray:
@@ -98,7 +106,10 @@ class JointSpectrum:
             self.peak_torque_nm, self.source,
             None if self.torque_revolutions_nm is None else self.torque_revolutions_nm * factor,
             None if self.torque_time_nm_s is None else self.torque_time_nm_s * factor,
-            None if self.torque_sq_time_nm2_s is None else self.torque_sq_time_nm2_s * factor)
+            None if self.torque_sq_time_nm2_s is None else self.torque_sq_time_nm2_s * factor,
+            None if self.power_sums is None else {p: v * factor
+                                                  for p, v in self.power_sums.items()},
+            None if self.abs_angle_rad is None else self.abs_angle_rad * factor)
 
 
 def combine_spectra(parts: Sequence[tuple[JointSpectrum, float]],
@@ -126,13 +137,18 @@ def combine_spectra(parts: Sequence[tuple[JointSpectrum, float]],
         return None if any(v is None for v in vals) else sum(vals[1:], vals[0])
 
     sources = {s.source for s in sc}
+    sums = [s.power_sums for s in sc]
+    powers = None
+    if all(x is not None for x in sums):
+        keys = set.intersection(*(set(x) for x in sums if x is not None))
+        powers = {p: float(sum(x[p] for x in sums if x is not None)) for p in sorted(keys)}
     return JointSpectrum(
         first.joint, first.torque_edges_nm, first.speed_edges_rad_s,
         total("time_s"), total("revolutions"), float(sum(s.duration_s for s in sc)),
         max(s.peak_torque_nm for s, w in parts if w > 0) if any(w > 0 for _, w in parts) else 0.0,
         sources.pop() if len(sources) == 1 else "mixed",
         total("torque_revolutions_nm"), total("torque_time_nm_s"),
-        total("torque_sq_time_nm2_s"))
+        total("torque_sq_time_nm2_s"), powers, total("abs_angle_rad"))
 
 
 def spectrum_from_record(rec: RunRecord, joint: str) -> JointSpectrum:
@@ -144,8 +160,10 @@ def spectrum_from_record(rec: RunRecord, joint: str) -> JointSpectrum:
     except KeyError:  # records written before the moments were stored
         trev, ttime = None, None
     s = rec.summary(joint)
+    sums = rec.power_sums(joint)  # None in records of format 1
     return JointSpectrum(joint, te, se, time_s, revs, s.duration_s, s.peak_torque_nm,
-                         "histogram", trev, ttime, s.rms_torque_nm**2 * s.duration_s)
+                         "histogram", trev, ttime, s.rms_torque_nm**2 * s.duration_s,
+                         None if sums is None else sums[0], None if sums is None else sums[1])
 
 
 def mean_abs_speed_rad_s(spec: JointSpectrum) -> float:
@@ -157,20 +175,89 @@ def mean_abs_speed_rad_s(spec: JointSpectrum) -> float:
     return float(spec.revolutions.sum() * TWO_PI / total)
 
 
-def equivalent_torque_nm(spec: JointSpectrum, exponent: float) -> float:
-    """Revolution-weighted p-th power mean torque (Palmgren's variable-load mean).
+EXPONENT_MATCH_REL = 1e-12  # a stored power sum serves an exponent this close to its own
 
-    T_eq = [ sum |T_i|^p N_i / sum N_i ]^(1/p), N_i revolutions in bin i (Harris & Kotzalas,
-    Rolling Bearing Analysis; Shigley ch. 11, variable loading). T_i is the exact
-    revolution-weighted mean torque inside bin i when the record holds it, else the bin
-    centre. Zero if nothing turned.
-    """
+
+def exact_power_sum(spec: JointSpectrum, exponent: float) -> float | None:
+    """The exact ``sum |T|^p |w| dt`` of ``spec`` for ``p = exponent``, if it holds one."""
+    if spec.power_sums is None or spec.abs_angle_rad is None:
+        return None
+    for p, v in spec.power_sums.items():
+        if abs(p - exponent) <= EXPONENT_MATCH_REL * exponent:
+            return v
+    return None
+
+
+def histogram_equivalent_torque_nm(spec: JointSpectrum, exponent: float) -> float:
+    """T_eq from the bins: ``[sum |T_i|^p N_i / sum N_i]^(1/p)``, ``T_i`` the exact
+    revolution-weighted mean torque inside bin ``i`` (else the bin centre). Biased low for
+    ``p > 1`` (Jensen's inequality: the p-th power of the in-bin mean is below the in-bin mean
+    of the p-th power); :func:`equivalent_torque_bounds` bounds the bias."""
     rev = spec.revolutions
     total = rev.sum()
     if total <= 0:
         return 0.0
     tc = np.abs(spec.bin_mean_torque_nm("revolutions"))
     return float(((tc**exponent * rev).sum() / total) ** (1.0 / exponent))
+
+
+def equivalent_torque_nm(spec: JointSpectrum, exponent: float) -> float:
+    """Revolution-weighted p-th power mean torque (Palmgren's variable-load mean).
+
+    T_eq = [ sum |T|^p |w| dt / sum |w| dt ]^(1/p) over every step (Harris & Kotzalas,
+    Rolling Bearing Analysis; Shigley ch. 11, variable loading): exact from the record's power
+    sums when it holds one for this exponent (3, 10/3, 3.333 and the scenario's
+    ``record.life_exponents``), else from the bins (:func:`histogram_equivalent_torque_nm`,
+    low by at most the bound of :func:`equivalent_torque_bounds`). Zero if nothing turned.
+    """
+    exact = exact_power_sum(spec, exponent)
+    if exact is not None:
+        angle = spec.abs_angle_rad or 0.0
+        return float((exact / angle) ** (1.0 / exponent)) if angle > 0 else 0.0
+    return histogram_equivalent_torque_nm(spec, exponent)
+
+
+def equivalent_torque_bounds(spec: JointSpectrum, exponent: float
+                             ) -> tuple[float, float | None]:
+    """``(lower, upper)`` of the true T_eq given only the bins (``upper`` None for p < 1).
+
+    Within a bin whose |torque| lies in ``[a, b]`` with revolution-weighted mean ``m``, a
+    convex ``f(x) = x^p`` (p >= 1) lies below its chord, so the in-bin mean of |T|^p lies
+    between ``m^p`` (Jensen) and the chord at ``m``: ``f(a) (b - m)/(b - a) + f(b) (m - a)/(b - a)``.
+    A bin across zero torque (mean |T| unknown) is bounded by ``b^p``. Summed with the
+    revolutions of the bins this brackets sum |T|^p N. Time outside the outer bins (the
+    record's overflow) is not bounded.
+    """
+    low = histogram_equivalent_torque_nm(spec, exponent)
+    if exponent < 1.0:
+        return low, None
+    rev = spec.revolutions
+    total = rev.sum()
+    if total <= 0:
+        return low, 0.0
+    e = spec.torque_edges_nm
+    lo, hi = e[:-1], e[1:]
+    across = (lo < 0) & (hi > 0)
+    a = np.where(across, 0.0, np.minimum(np.abs(lo), np.abs(hi)))[:, None]
+    b = np.maximum(np.abs(lo), np.abs(hi))[:, None]
+    m = np.clip(np.abs(spec.bin_mean_torque_nm("revolutions")), a, b)
+    p = exponent
+    width = np.where(b > a, b - a, 1.0)
+    chord = np.where(b > a, (a**p * (b - m) + b**p * (m - a)) / width, m**p)
+    upper = np.where(np.broadcast_to(across[:, None], m.shape), b**p, chord)
+    return low, float(((upper * rev).sum() / total) ** (1.0 / p))
+
+
+def equivalent_torque_detail(spec: JointSpectrum, exponent: float) -> dict[str, Any]:
+    """T_eq with its route: ``{"value": .., "route": "exact" | "histogram",
+    "bias_bound": ..}``, ``bias_bound`` the largest share by which the value can be low
+    (0 when exact; None when no bound holds)."""
+    value = equivalent_torque_nm(spec, exponent)
+    if exact_power_sum(spec, exponent) is not None:
+        return {"value": value, "route": "exact", "bias_bound": 0.0}
+    low, up = equivalent_torque_bounds(spec, exponent)
+    bound = None if up is None else (up / low - 1.0 if low > 0 else 0.0)
+    return {"value": value, "route": "histogram", "bias_bound": bound}
 
 
 def rms_torque_nm(spec: JointSpectrum) -> float:

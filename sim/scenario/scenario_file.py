@@ -86,6 +86,9 @@ SCENARIO_SPEC: dict[str, Any] = {
         "torque_bins": Field(int, "histogram torque bins over +-peak torque", default=80, min=2),
         "speed_bins": Field(int, "histogram speed bins over +-1.5 x no-load speed", default=80,
                             min=2),
+        "life_exponents": Field(list, "life exponents p whose exact sums of |torque|^p "
+                                "|speed| dt the record keeps besides 3, 10/3 and 3.333",
+                                default=[], item=float, min=0.0, min_inclusive=False),
     },
     "segment": Field(list, "segments run in order, each a table with kind and duration_s",
                      required=True, item=dict),

@@ -40,7 +40,7 @@ from sim.sweeps.metrics import compute_metrics
 from sim.sweeps.providers import CaseContext
 from sim.sweeps.spec import Sweep
 
-CASE_FORMAT = "gaitload sweep case 1"
+CASE_FORMAT = "gaitload sweep case 2"  # 2: with the quality screen of the record
 FINAL_STATUSES = ("completed", "fell", "diverged", "bad_input", "infeasible")
 FAILED_STATUSES = ("fell", "diverged", "bad_input", "infeasible", "error")
 
@@ -148,6 +148,10 @@ def run_case(spec: Mapping[str, Any], out_dir: str | None = None) -> dict[str, A
             return out
         out.update(status=res.status, reason=res.detail)
         if res.status == "completed":
+            from sim.loads.quality import screen_record
+
+            scr = screen_record(rec)
+            out["quality"] = {"flagged": scr.flagged, "reasons": scr.reasons(compact=True)}
             doc = dict(res.to_json())
             doc["total_mass_kg"] = res.total_mass_kg
             ctx = CaseContext(rec, doc, spec["scenario_toml"], spec["model_toml"],
@@ -207,6 +211,7 @@ def store_case(out_dir: Path, case: Case, res: Mapping[str, Any]) -> dict[str, A
     doc = {"format": CASE_FORMAT, "key": case.key, "status": res["status"],
            "reason": res.get("reason", ""), "params": case.params,
            "metrics": res.get("metrics", {}), "record": "record.h5" if has_record else None,
+           "quality": res.get("quality"),
            "inputs": None if case.spec is None else {
                k: case.spec[k] for k in ("scenario_toml", "model_toml", "drivetrain",
                                          "metrics")}}

@@ -41,13 +41,16 @@ class CaseResult:
     reason: str
     params: dict[str, Any]
     metrics: dict[str, float | None]
+    flagged: bool = False  # the record failed the quality screen (sim.loads.quality)
+    quality: str = ""  # why, in short
 
 
 @dataclass(frozen=True)
 class SweepResult:
     """All cases of a sweep, in case order, with the ranking.
 
-    ``ranked`` lists case indices of ranked (completed, feasible, finite) cases, best first.
+    ``ranked`` lists case indices of ranked (completed, feasible, finite) cases, best first:
+    the cases whose records pass the quality screen, then the flagged ones (marked).
     ``n_run`` / ``n_reused``: cases run now and cases taken from a previous run.
     ``worker_cpu_s``: per worker process (by pid) its CPU seconds since it started, as last
     reported (start-up, cases run now and any executor threads); in no output file.
@@ -66,7 +69,7 @@ class SweepResult:
 
     @property
     def columns(self) -> list[str]:
-        return ["rank", "case", "key", "status", "reason", *self.sweep.keys,
+        return ["rank", "case", "key", "status", "reason", "quality", *self.sweep.keys,
                 *self.sweep.metrics]
 
     def rows(self) -> list[dict[str, Any]]:
@@ -77,7 +80,8 @@ class SweepResult:
         for i in order:
             c = self.cases[i]
             row: dict[str, Any] = {"rank": rank.get(i), "case": c.index, "key": c.key[:16],
-                                   "status": c.status, "reason": c.reason}
+                                   "status": c.status, "reason": c.reason,
+                                   "quality": ("flagged: " + c.quality) if c.flagged else ""}
             row.update({k: c.params.get(k) for k in self.sweep.keys})
             row.update({m: c.metrics.get(m) for m in self.sweep.metrics})
             out.append(row)
@@ -102,7 +106,8 @@ class SweepResult:
         if self.sweep.pareto is None:
             return []
         x, y, gx, gy = self.sweep.pareto
-        idx = [i for i in self.ranked if is_finite_number(self.cases[i].metrics.get(x))
+        idx = [i for i in self.ranked if not self.cases[i].flagged
+               and is_finite_number(self.cases[i].metrics.get(x))
                and is_finite_number(self.cases[i].metrics.get(y))]
         pts = np.array([[self.cases[i].metrics[x], self.cases[i].metrics[y]] for i in idx],
                        dtype=float).reshape(-1, 2)
@@ -118,7 +123,8 @@ class SweepResult:
 
         def entry(i: int) -> dict[str, Any]:
             c = self.cases[i]
-            return {"case": i, "key": c.key, "params": c.params, "value": c.metrics[s.rank_metric]}
+            return {"case": i, "key": c.key, "params": c.params, "value": c.metrics[s.rank_metric],
+                    "flagged": c.flagged}
 
         winner = entry(self.ranked[0]) if self.ranked else None
         runner = entry(self.ranked[1]) if len(self.ranked) > 1 else None
@@ -135,6 +141,7 @@ class SweepResult:
                     f"latin hypercube, {s.sample_count} samples, seed {s.sample_seed}",
             "counts": dict(sorted(counts.items())), "n_cases": len(self.cases),
             "n_ranked": len(self.ranked),
+            "n_flagged": sum(1 for c in self.cases if c.flagged),
             "winner": winner, "runner_up": runner, "margin": margin,
             "pareto": None if s.pareto is None else {
                 "x": s.pareto[0], "y": s.pareto[1], "x_goal": s.pareto[2],
@@ -173,22 +180,26 @@ def case_result(case: Case, doc: Mapping[str, Any], sweep: Sweep) -> CaseResult:
     ``infeasible`` with the broken conditions as its reason."""
     status, reason = doc["status"], doc.get("reason", "")
     metrics = {m: doc.get("metrics", {}).get(m) for m in sweep.metrics}
+    q = doc.get("quality") or {}
     if status == "completed":
         broken = [k.text for k in sweep.constraints
                   if not (is_finite_number(metrics[k.metric])
                           and k.holds(float(metrics[k.metric])))]
         if broken:
             status, reason = "infeasible", "violates " + "; ".join(broken)
-    return CaseResult(case.index, case.key, status, reason, dict(case.params), metrics)
+    return CaseResult(case.index, case.key, status, reason, dict(case.params), metrics,
+                      bool(q.get("flagged", False)), "; ".join(q.get("reasons", ())))
 
 
 def rank_cases(cases: Sequence[CaseResult], metric: str, goal: str) -> tuple[int, ...]:
-    """Indices of completed cases with a finite ``metric``, best first (ties: case order)."""
+    """Indices of completed cases with a finite ``metric``, best first (ties: case order):
+    the cases that pass the quality screen first, then the flagged ones, each group by the
+    metric (a flagged case's figures may be inflated or thinned by what the screen found)."""
     ok = [c for c in cases
           if c.status == "completed" and is_finite_number(c.metrics.get(metric))]
     sign = 1.0 if goal == "min" else -1.0
-    return tuple(c.index for c in sorted(ok, key=lambda c: (sign * float(c.metrics[metric] or 0.0),
-                                                            c.index)))
+    return tuple(c.index for c in sorted(ok, key=lambda c: (
+        c.flagged, sign * float(c.metrics[metric] or 0.0), c.index)))
 
 
 
@@ -213,8 +224,10 @@ def format_table(result: SweepResult, limit: int = 20, cols: Iterable[str] | Non
             v = row[n]
             cells.append(f"{v:>{w}.6g}" if isinstance(v, float) else
                          f"{'' if v is None else v!s:>{w}}")
-        r = "" if row["rank"] is None else row["rank"]
+        r = "" if row["rank"] is None else f"{row['rank']}{'*' if row['quality'] else ''}"
         lines.append(f"{r!s:>4} {row['case']:>4} {row['status']:<10} " + " ".join(cells))
     if len(result.cases) > limit:
         lines.append(f"... {len(result.cases) - limit} more in results.csv")
+    if any(c.flagged for c in result.cases):
+        lines.append("* flagged by the quality screen, ranked after the clean cases")
     return "\n".join(lines)
