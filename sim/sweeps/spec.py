@@ -50,7 +50,8 @@ SWEEP_SPEC: dict[str, Any] = {
                       required=True),
     "set": Field(list, "fixed KEY=VALUE overrides applied to every case (as --set)",
                  default=[], item=str),
-    "drivetrain": Field(str, "drivetrain file, relative to this file (for check. metrics)",
+    "drivetrain": Field(str, "drivetrain file, relative to this file: simulated in every case "
+                        "instead of the model's (and so checked)",
                         default=""),
     "metrics": Field(list, "metric paths to tabulate, e.g. run.joints.*_knee.peak_torque_nm:max",
                      required=True, item=str),
