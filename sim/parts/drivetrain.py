@@ -314,10 +314,19 @@ class ResolvedDrivetrain:
         return f"{self.part(joint, role).source}: {keys}"
 
     def to_toml(self) -> str:
+        # file names relative to the drivetrain's folder, so the text (and a record holding
+        # it) does not depend on where the files lie
+        home = Path(self.file).resolve().parent
+
+        def rel(src: str) -> str:
+            try:
+                return Path(src).resolve().relative_to(home).as_posix()
+            except ValueError:
+                return Path(src).name
         doc: dict[str, Any] = {
-            "file": self.file, "overrides": list(self.overrides), "notes": list(self.notes),
-            "supply": dict(self.supply or {}),
-            "part": {pid: {"role": p.role, "source": p.source, "changed": list(p.changed),
+            "file": Path(self.file).name, "overrides": list(self.overrides),
+            "notes": list(self.notes), "supply": dict(self.supply or {}),
+            "part": {pid: {"role": p.role, "source": rel(p.source), "changed": list(p.changed),
                            "table": copy.deepcopy(dict(p.table))}
                      for pid, p in self.parts.items()},
             "joint": {j: {"reducer": jp.reducer, "motor": jp.motor,
@@ -518,7 +527,7 @@ def finish_drivetrain(dt: ResolvedDrivetrain) -> ResolvedDrivetrain:
         limit = sup["current_limit_a"] if jp.current_limit_a is None else jp.current_limit_a
         stiff = r["mesh_stiffness_nm_rad"]
         if r["backlash_rad"] > 0 and stiff <= 0:
-            lash_unsimulated.setdefault(rp.source, []).append(j)
+            lash_unsimulated.setdefault(Path(rp.source).name, []).append(j)
         values[j] = {
             "gear_ratio": n,
             "rotor_inertia_kg_m2": m["rotor_inertia_kg_m2"] + r["input_inertia_kg_m2"]
