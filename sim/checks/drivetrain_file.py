@@ -13,8 +13,8 @@ which stores the drivetrain it was simulated with (:func:`drivetrain_of_record`)
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
 import tomllib
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any

@@ -63,11 +63,15 @@ class MotorBank:
         self.ambient = col([x.motor.ambient_temp_c if ambient_c is None else ambient_c
                             for x in d])
         self.limit = col([x.motor.max_winding_temp_c for x in d])
+        nets = [x.motor.thermal for x in d]
+        if any(n is None for n in nets):
+            raise ValueError("every motor checked needs a thermal network (quick motors are "
+                             "left out of the motor check)")
         self.net = th.ThermalNetwork(
-            col([x.motor.thermal.capacity_winding_j_per_k for x in d]),
-            col([x.motor.thermal.capacity_housing_j_per_k for x in d]),
-            col([x.motor.thermal.resistance_winding_housing_k_per_w for x in d]),
-            col([x.motor.thermal.resistance_housing_ambient_k_per_w for x in d]))
+            col([n.capacity_winding_j_per_k for n in nets if n is not None]),
+            col([n.capacity_housing_j_per_k for n in nets if n is not None]),
+            col([n.resistance_winding_housing_k_per_w for n in nets if n is not None]),
+            col([n.resistance_housing_ambient_k_per_w for n in nets if n is not None]))
 
 
 @dataclass

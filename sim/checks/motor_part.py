@@ -49,6 +49,7 @@ from sim.core.config import Field, load_toml, validate
 from sim.core.errors import InputError
 from sim.parts.drivetrain import MOTOR_SIM_SPEC, motor_sim_values
 from sim.parts.motor_constants import (  # one definition, shared with the simulation
+    CURRENT_CONVENTIONS,
     RPM_PER_RAD_S,
     SPEED_CONSTANT_VOLTAGES,
     back_emf_constant,
@@ -59,10 +60,20 @@ from sim.parts.motor_constants import (  # one definition, shared with the simul
     torque_to_speed_constant,
 )
 
-__all__ = ["RPM_PER_RAD_S", "SPEED_CONSTANT_VOLTAGES", "back_emf_constant",
-           "back_emf_from_torque_constant", "speed_constant", "speed_to_torque_constant",
-           "torque_constant", "torque_to_speed_constant", "MotorPart", "load_motor_part",
-           "motor_from_table"]
+__all__ = [
+    "CURRENT_CONVENTIONS",
+    "RPM_PER_RAD_S",
+    "SPEED_CONSTANT_VOLTAGES",
+    "MotorPart",
+    "back_emf_constant",
+    "back_emf_from_torque_constant",
+    "load_motor_part",
+    "motor_from_table",
+    "speed_constant",
+    "speed_to_torque_constant",
+    "torque_constant",
+    "torque_to_speed_constant",
+]
 
 
 # -- the part -------------------------------------------------------------------------------
@@ -123,6 +134,8 @@ class MotorPart:
 
         ``T = k sqrt(P / R_LL(T_max))`` with ``P = (T_max - T_a) / (R_wh + R_ha)``.
         """
+        if self.thermal is None:
+            raise ValueError(f"motor {self.name}: no thermal network (a quick motor)")
         ta = self.ambient_temp_c if ambient_c is None else ambient_c
         p = max(self.max_winding_temp_c - ta, 0.0) / float(self.thermal.total_resistance_k_per_w)
         return self.back_emf_v_s_per_rad * math.sqrt(

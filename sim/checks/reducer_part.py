@@ -17,10 +17,9 @@ from typing import Any
 import numpy as np
 
 from sim.checks.report import Limit
-from sim.core.config import Field
-from sim.parts.drivetrain import REDUCER_COMMON_SPEC, REDUCER_KINDS
 from sim.core.errors import InputError
 from sim.loads.spectra import JointSpectrum
+from sim.parts.drivetrain import REDUCER_COMMON_SPEC, REDUCER_KINDS
 
 KINDS = REDUCER_KINDS
 

@@ -27,7 +27,6 @@ one motor's regeneration feeds another before any reaches the pack.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Any
 

@@ -111,6 +111,39 @@ MOTOR_SIM_SPEC: dict[str, Any] = {
     "rotor_inertia_kg_m2": Field(float, "kg m^2", required=True, min=0.0),
 }
 
+# every top-level key a part file may hold, by kind: the simulation refuses an unknown key
+# before it runs (the checks validate the values; tests/test_parts.py keeps both in step)
+REDUCER_KIND_KEYS: dict[str, tuple[str, ...]] = {
+    "rated": ("rated_torque_nm", "rated_speed_rad_s", "rated_life_h", "life_exponent",
+              "momentary_peak_torque_nm", "peak_count", "repeated_peak_torque_nm"),
+    "cycloidal": ("cycloid",), "planetary": ("planetary",), "belt": ("belt",),
+}
+MOTOR_KEYS: tuple[str, ...] = (
+    "kind", "name", "note", *MOTOR_SIM_SPEC, "no_load_current_a", "friction_torque_nm",
+    "viscous_friction_nm_s_per_rad", "hysteresis_loss_w_s_per_rad", "eddy_loss_w_s2_per_rad2",
+    "thermal_resistance_winding_housing_k_per_w", "thermal_resistance_housing_ambient_k_per_w",
+    "thermal_capacity_winding_j_per_k", "thermal_capacity_housing_j_per_k", "insulation_class",
+    "max_winding_temp_c", "ambient_temp_c", "continuous_torque_nm", "peak_torque_nm")
+
+
+def check_part_keys(table: Mapping[str, Any], role: str, file: str) -> None:
+    """Refuse a top-level key the part's kind does not know (a misspelt key would otherwise
+    leave its default in the simulation)."""
+    if not isinstance(table, Mapping):
+        raise InputError(file, None, f"a {role} part table", table)
+    if role == "motor":
+        known: tuple[str, ...] = MOTOR_KEYS
+    else:
+        kind = table.get("kind")
+        if kind not in REDUCER_KIND_KEYS:
+            raise InputError(file, "kind", "one of " + ", ".join(REDUCER_KINDS), kind)
+        known = (*REDUCER_COMMON_SPEC, *REDUCER_KIND_KEYS[kind])
+    for key in table:
+        if key not in known:
+            raise InputError(file, key, f"a known key of a {role} part (unknown key; known: "
+                             + ", ".join(sorted(known)) + ")")
+
+
 SUPPLY_SPEC: dict[str, Any] = {
     "bus_voltage_v": Field(float, "open-circuit bus voltage, V", required=True, **_POS),
     "current_limit_a": Field(float, "driver current limit per motor, A", required=True, **_POS),
@@ -186,6 +219,7 @@ def _count(table: Mapping[str, Any], key: str, file: str, prefix: str) -> int:
 def reducer_ratio(table: Mapping[str, Any], file: str) -> float:
     """The ratio a reducer part gives: stated (``rated``) or from its geometry, which a stated
     ratio must match (rel. 1e-6)."""
+    check_part_keys(table, "reducer", file)
     v = reducer_common(table, file)
     kind = v["kind"]
     if kind == "rated":
@@ -225,6 +259,7 @@ def reducer_ratio(table: Mapping[str, Any], file: str) -> float:
 def motor_sim_values(table: Mapping[str, Any], file: str) -> dict[str, Any]:
     """``back_emf_v_s_per_rad`` (= DC-equivalent torque constant), ``line_resistance_ohm`` at
     20 C and ``rotor_inertia_kg_m2`` of a motor part table."""
+    check_part_keys(table, "motor", file)
     v = validate({k: x for k, x in table.items() if k in MOTOR_SIM_SPEC}, MOTOR_SIM_SPEC,
                  file=file)
     kv, kt = v["speed_constant_rpm_per_v"], v["torque_constant_nm_per_a"]

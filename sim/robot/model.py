@@ -324,6 +324,20 @@ def model_from_data(data: dict[str, Any], file: str,
     return model
 
 
+def model_from_texts(model_toml: str, drivetrain_toml: str, file: str) -> RobotModel:
+    """The model a record was simulated with, from its ``model_toml`` and ``drivetrain_toml``
+    attributes (``file`` names the record in messages)."""
+    import tomllib
+
+    from sim.parts.drivetrain import drivetrain_from_toml
+
+    try:
+        data = tomllib.loads(model_toml)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(file, "model_toml", f"the model as gaitload stores it ({exc})") from None
+    return model_from_data(data, file, drivetrain=drivetrain_from_toml(drivetrain_toml, file))
+
+
 def load_model(path: str | Path, overrides: dict[str, Any] | None = None) -> RobotModel:
     """Read ``models/<name>.toml``; ``overrides`` maps dotted keys to values (``--set robot.``
     without the prefix); keys under ``parts.`` change the drivetrain's parts."""

@@ -36,14 +36,9 @@ class CaseContext:
 
     def model(self) -> Any:
         """The case's resolved robot model (:class:`sim.robot.model.RobotModel`)."""
-        import tomllib
+        from sim.robot.model import model_from_texts
 
-        from sim.parts.drivetrain import drivetrain_from_toml
-        from sim.robot.model import model_from_data
-
-        drive = drivetrain_from_toml(self.drivetrain_toml, "resolved drivetrain")
-        return model_from_data(tomllib.loads(self.model_toml), "resolved model",
-                               drivetrain=drive)
+        return model_from_texts(self.model_toml, self.drivetrain_toml, "resolved model")
 
 
 NUM = float  # a leaf of a provider schema: a number
