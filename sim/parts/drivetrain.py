@@ -518,7 +518,7 @@ def resolve_drivetrain(path: str | Path, overrides: Mapping[str, Any] | None = N
                     changed.append(f"{sub}={who_over[k]!r}")
             sig = (str(p), tuple(changed))
             if sig not in ids:
-                stem = p.stem if not changed else f"{p.stem}~{len(ids)}"
+                stem = p.stem if not changed else f"{p.stem}_{len(ids)}"
                 while stem in parts:
                     stem += "_"
                 ids[sig] = stem
