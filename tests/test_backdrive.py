@@ -28,8 +28,8 @@ from sim.robot.model import load_model
 from sim.robot.urdf import build_urdf
 from sim.scenario.segments import stance_angles
 
-from .helpers import drive_overrides
 from .conftest import MODELS
+from .helpers import drive_overrides
 
 
 def _one_d(m_b: float, m_f: float, m_r: float) -> float:

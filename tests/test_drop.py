@@ -19,8 +19,8 @@ from sim.record import open_record
 from sim.robot.statics import StanceStatics
 from sim.scenario.scenario_file import load_scenario
 
-from .helpers import drive_set_args
 from .conftest import SCENARIOS
+from .helpers import drive_set_args
 
 G = 9.80665
 

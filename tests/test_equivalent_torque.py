@@ -8,6 +8,7 @@ import pytest
 
 from sim import JOINT_NAMES
 from sim.loads.mix import mix_of_records
+from sim.loads.series import load_series_name
 from sim.loads.spectra import (
     equivalent_torque_bounds,
     equivalent_torque_detail,
@@ -16,7 +17,6 @@ from sim.loads.spectra import (
     spectrum_from_record,
     usage_spectra,
 )
-from sim.loads.series import load_series_name
 from sim.record import open_record
 
 from .synthetic import write_synthetic_record

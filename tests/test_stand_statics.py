@@ -16,8 +16,8 @@ import numpy as np
 import pytest
 
 from sim import JOINT_NAMES, LEGS
-from sim.record import open_record
 from sim.loads.series import load_series_name
+from sim.record import open_record
 from sim.robot.model import model_from_texts
 from sim.robot.urdf import build_urdf
 

@@ -20,7 +20,6 @@ from __future__ import annotations
 import itertools
 import json
 import math
-import shutil
 from pathlib import Path
 
 import numpy as np
@@ -308,9 +307,8 @@ def test_cli_provider_runs_a_command_in_process_and_reads_its_json(monkeypatch, 
 
 
 def test_model_provider_gives_reflected_inertia_n_squared_j():
-    from sim.sweeps.providers import _model_provider
-
     from sim.robot.model import load_model
+    from sim.sweeps.providers import _model_provider
 
     text = (MODELS / "fennec.toml").read_text()
     drive = load_model(MODELS / "fennec.toml").drivetrain.to_toml()
