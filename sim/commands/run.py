@@ -51,6 +51,30 @@ def drive_summary(scn: Any) -> dict[str, Any]:
             "overrides": list(dt.overrides)}
 
 
+def gains_summary(scn: Any) -> dict[str, Any]:
+    """The joint gains the run uses (per joint) and the targets they were derived for."""
+    c = scn.data["control"]
+    return {"bandwidth_hz": c["bandwidth_hz"], "damping_ratio": c["damping_ratio"],
+            "joints": {j: g.to_json() for j, g in scn.gains.items()}}
+
+
+def format_gains(scn: Any) -> str:
+    """One line per joint kind of the front left leg, and which joints were written."""
+    c = scn.data["control"]
+    g = scn.gains
+    head = (f"gains: derived for {c['bandwidth_hz']:g} Hz, damping ratio "
+            f"{c['damping_ratio']:g} (docs/control.md); ")
+    parts = []
+    for kind in ("abad", "hip", "knee"):
+        x = g[f"fl_{kind}"]
+        parts.append(f"{kind} kp {x.kp_nm_rad:.4g} kd {x.kd_nm_s_rad:.3g} ({x.source}"
+                     + (f", limited by the {x.limited_by}" if x.limited_by in
+                        ("time step", "control period") else "") + ")")
+    written = [j for j, x in g.items() if x.source != "derived"]
+    tail = f"; written in the scenario: {', '.join(written)}" if written else ""
+    return head + "; ".join(parts) + tail
+
+
 def execute(args: argparse.Namespace) -> int:
     from sim.scenario.scenario_file import load_scenario
 
@@ -64,7 +88,8 @@ def execute(args: argparse.Namespace) -> int:
     screen = screen_records([result.record])
     if args.json:
         print(json.dumps({**result.to_json(), "quality": screen.to_json(),
-                          "drivetrain": drive_summary(scn)}, indent=2, allow_nan=False))
+                          "drivetrain": drive_summary(scn), "gains": gains_summary(scn)},
+                         indent=2, allow_nan=False))
         for line in screen.flag_lines():
             print(line, file=sys.stderr)
     else:
@@ -75,6 +100,7 @@ def execute(args: argparse.Namespace) -> int:
               f"reducer losses: {'on' if d['losses'] else 'off'}")
         for note in d["not_simulated"]:
             print(f"  not simulated: {note}")
+        print(format_gains(scn))
         print(format_table(result))
         print(screen.to_text())
         print(CAUTION)

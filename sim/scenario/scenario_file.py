@@ -14,9 +14,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from sim import JOINT_KINDS
+from sim import JOINT_KINDS, JOINT_NAMES
 from sim.core.config import Field, dump_toml, load_toml, parse_override, set_dotted, validate
 from sim.core.errors import InputError
+from sim.drive.gains import DEFAULT_BANDWIDTH_HZ, DEFAULT_DAMPING_RATIO, JointGain
 from sim.robot.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
@@ -62,10 +63,16 @@ SCENARIO_SPEC: dict[str, Any] = {
                         min=0.0, min_inclusive=False),
     },
     "control": {
-        "kp_nm_rad": {k: Field(float, "joint stiffness", default=d, min=0.0)
-                      for k, d in zip(JOINT_KINDS, (150.0, 150.0, 150.0), strict=True)},
-        "kd_nm_s_rad": {k: Field(float, "joint damping", default=d, min=0.0)
-                        for k, d in zip(JOINT_KINDS, (3.0, 3.0, 3.0), strict=True)},
+        # unset: derived from the robot (sim/drive/gains.py, docs/control.md); a joint kind
+        # (abad, hip, knee) or a joint (fl_knee) given here wins, the joint over its kind
+        "kp_nm_rad": {k: Field(float, "joint stiffness; unset = derived from the robot",
+                               min=0.0) for k in (*JOINT_KINDS, *JOINT_NAMES)},
+        "kd_nm_s_rad": {k: Field(float, "joint damping; unset = derived from the robot",
+                                 min=0.0) for k in (*JOINT_KINDS, *JOINT_NAMES)},
+        "bandwidth_hz": Field(float, "natural frequency the derived gains aim at",
+                              default=DEFAULT_BANDWIDTH_HZ, **POS),
+        "damping_ratio": Field(float, "damping ratio of the derived gains",
+                               default=DEFAULT_DAMPING_RATIO, **POS),
         "update_period_s": Field(float, "period of target and feed-forward updates",
                                  default=0.002, **POS),
     },
@@ -113,6 +120,7 @@ class Scenario:
     file: str
     model: RobotModel
     segments: tuple[dict[str, Any], ...]
+    gains: dict[str, JointGain]  # per joint, derived or written (resolve_gains)
 
     @property
     def time_step_s(self) -> float:
@@ -125,6 +133,8 @@ class Scenario:
     def to_toml(self) -> str:
         d = copy.deepcopy(self.data)
         d["segment"] = [dict(s) for s in self.segments]
+        for key in ("kp_nm_rad", "kd_nm_s_rad"):  # gains left unset are derived
+            d["control"][key] = {k: v for k, v in d["control"][key].items() if v is not None}
         return dump_toml(d)
 
 
@@ -177,8 +187,30 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
         raise InputError(str(path), "control.update_period_s", "at least one time step")
     from sim.drive.dynamics import DriveOptions, check_mesh  # the mesh must suit the time step
 
-    check_mesh(model, DriveOptions.from_table(values["drive"]), values["time_step_s"], str(path))
-    return Scenario(values, str(path), model, tuple(segments))
+    options = DriveOptions.from_table(values["drive"])
+    check_mesh(model, options, values["time_step_s"], str(path))
+    gains = resolve_gains(model, values, options.rotor_inertia != "off")
+    return Scenario(values, str(path), model, tuple(segments), gains)
+
+
+def resolve_gains(model: RobotModel, values: dict[str, Any], rotors: bool
+                  ) -> dict[str, JointGain]:
+    """Per joint: the gains derived from the robot (:func:`sim.drive.gains.derive_gains` in
+    the nominal stance, with the rotor inertia when ``rotors``), replaced where the scenario's
+    ``[control]`` writes them, a joint's value over its kind's."""
+    from sim.drive.gains import derive_gains, written_gain
+    from sim.scenario.gaits.base import stance_angles
+
+    c = values["control"]
+    derived = derive_gains(model, stance_angles(model), values["time_step_s"],
+                           c["update_period_s"], c["bandwidth_hz"], c["damping_ratio"], rotors)
+    out = {}
+    for j in JOINT_NAMES:
+        kind = j.split("_")[1]
+        kp = c["kp_nm_rad"][j] if c["kp_nm_rad"][j] is not None else c["kp_nm_rad"][kind]
+        kd = c["kd_nm_s_rad"][j] if c["kd_nm_s_rad"][j] is not None else c["kd_nm_s_rad"][kind]
+        out[j] = derived[j] if kp is None and kd is None else written_gain(derived[j], kp, kd)
+    return out
 
 
 def _check_override_key(data: dict[str, Any], key: str) -> None:
