@@ -21,6 +21,8 @@ from sim.robot.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
 
+WRITTEN_KP, WRITTEN_KD = 150.0, 3.0  # the written gains' defaults, N m/rad and N m s/rad
+
 SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump", "bound",
                  "pronk")
 
@@ -41,10 +43,10 @@ SCENARIO_SPEC: dict[str, Any] = {
         "restitution": Field(float, "coefficient of restitution", default=0.0, min=0.0, max=1.0),
     },
     "drive": {
-        "rotor_inertia": Field(str, "motor rotors: 'approximate' (N^2 J_r added to the child "
-                               "link; the default), 'exact' (geared rotor links, about 1.6 x "
-                               "the run time) or 'off' (rigid joints)",
-                               default="approximate", choices=("off", "approximate", "exact")),
+        "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
+                               "added to the child link) or 'exact' (geared rotor links, "
+                               "about 1.6 x the run time)",
+                               default="off", choices=("off", "approximate", "exact")),
         "losses": Field(bool, "simulate the reducer friction and efficiency of the "
                         "drivetrain's reducer parts", default=True),
         "efficiency_band_rad_s": Field(float, "speed band around rest over which the forward "
@@ -63,10 +65,12 @@ SCENARIO_SPEC: dict[str, Any] = {
                         min=0.0, min_inclusive=False),
     },
     "control": {
-        "kp_nm_rad": {k: Field(float, "joint stiffness; left out = derived from the robot "
-                               "(sim/drive/gains.py)", min=0.0) for k in JOINT_KINDS},
-        "kd_nm_s_rad": {k: Field(float, "joint damping; left out = derived from the robot",
-                                 min=0.0) for k in JOINT_KINDS},
+        "gains": Field(str, "'written': the kp/kd tables (defaults 150 N m/rad, 3 N m s/rad); "
+                       "'derived': from the robot's joint inertias, bandwidth_hz and "
+                       "damping_ratio, where the tables leave a kind out (sim/drive/gains.py)",
+                       default="written", choices=("written", "derived")),
+        "kp_nm_rad": {k: Field(float, "joint stiffness", min=0.0) for k in JOINT_KINDS},
+        "kd_nm_s_rad": {k: Field(float, "joint damping", min=0.0) for k in JOINT_KINDS},
         "bandwidth_hz": Field(float, "target bandwidth of the derived joint gains",
                               default=12.0, **POS),
         "damping_ratio": Field(float, "damping ratio of the derived joint gains", default=1.0,
@@ -188,6 +192,11 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
     from sim.scenario.segments import stance_angles
 
     ctl = values["control"]
+    if ctl["gains"] == "written":  # the tables, with their defaults where they leave a kind out
+        ctl["kp_nm_rad"] = {k: (WRITTEN_KP if v is None else v)
+                            for k, v in ctl["kp_nm_rad"].items()}
+        ctl["kd_nm_s_rad"] = {k: (WRITTEN_KD if v is None else v)
+                              for k, v in ctl["kd_nm_s_rad"].items()}
     gains = joint_gains(model, stance_angles(model), values["time_step_s"],
                         values["drive"]["rotor_inertia"] != "off", ctl["bandwidth_hz"],
                         ctl["damping_ratio"], ctl["kp_nm_rad"], ctl["kd_nm_s_rad"])
