@@ -21,6 +21,7 @@ name before the loop (no per-step attribute lookups, no numpy per step; see
 
 from __future__ import annotations
 
+import json
 import os
 import sys
 from pathlib import Path
@@ -101,6 +102,8 @@ def _record_attrs(scn: Scenario, eng: Engine, start_step: int) -> dict[str, Any]
         "model_toml": scn.model.to_toml(), "time_step_s": dt,
         "drivetrain_toml": scn.model.drivetrain.to_toml() if scn.model.drivetrain else "",
         "drive_notes": list(scn.model.drivetrain.notes) if scn.model.drivetrain else [],
+        "control_gains_json": json.dumps({j: g.to_json() for j, g in scn.gains.items()},
+                                         sort_keys=True),
         "sample_period_s": dt * rec["decimation"],
         "decimation": rec["decimation"], "seed": d["seed"],
         "engine_version": f"pybullet {pb.getAPIVersion()}",
@@ -135,9 +138,9 @@ class _Loop:
         self.scn, self.eng, self.rec = scn, eng, rec
         self.dt = eng.dt
         self.clamp = make_clamp([Envelope.of(scn.model.actuators[j]) for j in JOINT_NAMES])
-        kinds = [j.split("_")[1] for j in JOINT_NAMES]
-        self.kp = [d["control"]["kp_nm_rad"][k] for k in kinds]
-        self.kd = [d["control"]["kd_nm_s_rad"][k] for k in kinds]
+        # per joint: derived from the robot unless the scenario writes them (sim/drive/gains.py)
+        self.kp = [scn.gains[j].kp_nm_rad for j in JOINT_NAMES]
+        self.kd = [scn.gains[j].kd_nm_s_rad for j in JOINT_NAMES]
         self.dec = d["record"]["decimation"]
         self.series = d["record"]["series"]
         self.start_step = round(d["record"]["start_s"] / self.dt)

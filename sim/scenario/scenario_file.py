@@ -10,7 +10,7 @@ are validated by :mod:`sim.scenario.segments`.
 from __future__ import annotations
 
 import copy
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -20,6 +20,8 @@ from sim.core.errors import InputError
 from sim.robot.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
+
+WRITTEN_KP, WRITTEN_KD = 150.0, 3.0  # the written gains' defaults, N m/rad and N m s/rad
 
 SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump", "bound",
                  "pronk")
@@ -42,7 +44,8 @@ SCENARIO_SPEC: dict[str, Any] = {
     },
     "drive": {
         "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
-                               "added to the child link) or 'exact' (geared rotor links)",
+                               "added to the child link) or 'exact' (geared rotor links, "
+                               "about 1.6 x the run time)",
                                default="off", choices=("off", "approximate", "exact")),
         "losses": Field(bool, "simulate the reducer friction and efficiency of the "
                         "drivetrain's reducer parts", default=True),
@@ -62,10 +65,16 @@ SCENARIO_SPEC: dict[str, Any] = {
                         min=0.0, min_inclusive=False),
     },
     "control": {
-        "kp_nm_rad": {k: Field(float, "joint stiffness", default=d, min=0.0)
-                      for k, d in zip(JOINT_KINDS, (150.0, 150.0, 150.0), strict=True)},
-        "kd_nm_s_rad": {k: Field(float, "joint damping", default=d, min=0.0)
-                        for k, d in zip(JOINT_KINDS, (3.0, 3.0, 3.0), strict=True)},
+        "gains": Field(str, "'written': the kp/kd tables (defaults 150 N m/rad, 3 N m s/rad); "
+                       "'derived': from the robot's joint inertias, bandwidth_hz and "
+                       "damping_ratio, where the tables leave a kind out (sim/drive/gains.py)",
+                       default="written", choices=("written", "derived")),
+        "kp_nm_rad": {k: Field(float, "joint stiffness", min=0.0) for k in JOINT_KINDS},
+        "kd_nm_s_rad": {k: Field(float, "joint damping", min=0.0) for k in JOINT_KINDS},
+        "bandwidth_hz": Field(float, "target bandwidth of the derived joint gains",
+                              default=12.0, **POS),
+        "damping_ratio": Field(float, "damping ratio of the derived joint gains", default=1.0,
+                               **POS),
         "update_period_s": Field(float, "period of target and feed-forward updates",
                                  default=0.002, **POS),
     },
@@ -113,6 +122,7 @@ class Scenario:
     file: str
     model: RobotModel
     segments: tuple[dict[str, Any], ...]
+    gains: dict[str, Any] = field(default_factory=dict)  # joint -> sim.drive.gains.JointGains
 
     @property
     def time_step_s(self) -> float:
@@ -178,7 +188,19 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
     from sim.drive.dynamics import DriveOptions, check_mesh  # the mesh must suit the time step
 
     check_mesh(model, DriveOptions.from_table(values["drive"]), values["time_step_s"], str(path))
-    return Scenario(values, str(path), model, tuple(segments))
+    from sim.drive.gains import joint_gains
+    from sim.scenario.segments import stance_angles
+
+    ctl = values["control"]
+    if ctl["gains"] == "written":  # the tables, with their defaults where they leave a kind out
+        ctl["kp_nm_rad"] = {k: (WRITTEN_KP if v is None else v)
+                            for k, v in ctl["kp_nm_rad"].items()}
+        ctl["kd_nm_s_rad"] = {k: (WRITTEN_KD if v is None else v)
+                              for k, v in ctl["kd_nm_s_rad"].items()}
+    gains = joint_gains(model, stance_angles(model), values["time_step_s"],
+                        values["drive"]["rotor_inertia"] != "off", ctl["bandwidth_hz"],
+                        ctl["damping_ratio"], ctl["kp_nm_rad"], ctl["kd_nm_s_rad"])
+    return Scenario(values, str(path), model, tuple(segments), gains)
 
 
 def _check_override_key(data: dict[str, Any], key: str) -> None:
