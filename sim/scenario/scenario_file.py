@@ -36,10 +36,11 @@ SCENARIO_SPEC: dict[str, Any] = {
                           min=0.05, max=3.0),
         "slope_rad": Field(float, "ground slope, rising along +x (uphill when walking forward)",
                            default=0.0, min=-0.6, max=0.6),
-        "stiffness_n_m": Field(float, "contact stiffness per foot; 0 = rigid contact",
-                               default=0.0, min=0.0),
-        "damping_n_s_m": Field(float, "contact damping per foot (with stiffness)", default=0.0,
-                               min=0.0),
+        "stiffness_n_m": Field(float, "contact stiffness per foot; 0 = the engine's rigid "
+                               "contact; left out = a foot pad derived from the robot's weight "
+                               "(foot_pad_n_m)", min=0.0),
+        "damping_n_s_m": Field(float, "contact damping per foot (with stiffness); left out "
+                               "with the stiffness = derived", min=0.0),
         "restitution": Field(float, "coefficient of restitution", default=0.0, min=0.0, max=1.0),
     },
     "drive": {
@@ -188,6 +189,7 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
     from sim.drive.dynamics import DriveOptions, check_mesh  # the mesh must suit the time step
 
     check_mesh(model, DriveOptions.from_table(values["drive"]), values["time_step_s"], str(path))
+    _resolve_ground(values, model, str(path))
     from sim.drive.gains import joint_gains
     from sim.scenario.segments import stance_angles
 
@@ -201,6 +203,33 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
                         values["drive"]["rotor_inertia"] != "off", ctl["bandwidth_hz"],
                         ctl["damping_ratio"], ctl["kp_nm_rad"], ctl["kd_nm_s_rad"])
     return Scenario(values, str(path), model, tuple(segments), gains)
+
+
+PAD_DEFLECTION_M = 0.003  # static deflection of a foot pad under half the weight
+PAD_DAMPING_RATIO = 0.7
+
+
+def foot_pad_n_m(mass_kg: float) -> tuple[float, float]:
+    """A foot pad for a robot of ``mass_kg`` (payload included): stiffness per foot that
+    deflects ``PAD_DEFLECTION_M`` = 3 mm under half the weight (two feet down in a trot), and
+    the damping that gives a damping ratio of 0.7 on that half mass: ``k = m g / (2 d)``,
+    ``c = 2 zeta sqrt(k m / 2)`` (common practice: rubber feet of legged robots deflect a few
+    millimetres; a contact this soft lasts tens of steps, so its forces converge in the time
+    step, where the engine's rigid contact makes one-step impacts)."""
+    k = mass_kg * 9.80665 / (2.0 * PAD_DEFLECTION_M)
+    return k, 2.0 * PAD_DAMPING_RATIO * (k * mass_kg / 2.0) ** 0.5
+
+
+def _resolve_ground(values: dict[str, Any], model: RobotModel, file: str) -> None:
+    g = values["ground"]
+    if g["stiffness_n_m"] is None:
+        if g["damping_n_s_m"] is not None:
+            raise InputError(file, "ground.damping_n_s_m", "a ground.stiffness_n_m with it "
+                             "(left out, both are derived from the robot's weight)")
+        k, c = foot_pad_n_m(model.total_mass_kg + values["payload"]["mass_kg"])
+        g["stiffness_n_m"], g["damping_n_s_m"] = round(k, 3), round(c, 3)
+    else:
+        g["damping_n_s_m"] = 0.0 if g["damping_n_s_m"] is None else g["damping_n_s_m"]
 
 
 def _check_override_key(data: dict[str, Any], key: str) -> None:
