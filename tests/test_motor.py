@@ -298,7 +298,24 @@ def test_usage_mix_of_pairs_weights_rms(tmp_path: Path):
         check_motors([(a, 0.0)], {"fl_knee": (m, 1.0, 1.0, 1.0)}, supply())
 
 
-def test_plots_written(tmp_path: Path):
+def _capture_figures(monkeypatch) -> list:
+    """Keep every figure the figure modules save (they still write their PNG files)."""
+    from sim.figures import common
+
+    figs: list = []
+    real = common.save_figure_atomic
+
+    def keep(fig, path, **kw):
+        figs.append(fig)
+        return real(fig, path, **kw)
+
+    monkeypatch.setattr(common, "save_figure_atomic", keep)
+    return figs
+
+
+def test_plots_written_and_show_the_checked_numbers(tmp_path: Path, monkeypatch):
+    from matplotlib.image import imread
+
     from sim.figures.motor import plot_all
 
     p = write_synthetic_record(tmp_path / "r.h5", 0.5, 0.001, joints=list(JOINT_NAMES[:3]),
@@ -306,12 +323,42 @@ def test_plots_written(tmp_path: Path):
                                speed_rad_s={j: (lambda t: 5 * np.cos(8 * t)) for j in JOINT_NAMES})
     m = load_motor_part(DEMO)
     drives = {j: (m, 9.0, 0.9, 0.85) for j in JOINT_NAMES[:3]}
-    rep = check_motors(p, drives, supply(current_limit_a=30.0))
+    sup = supply(current_limit_a=30.0)
+    rep = check_motors(p, drives, sup)
+    figs = _capture_figures(monkeypatch)
     out = plot_all(rep, tmp_path / "fig")
-    assert len(out) == 5
-    for f in out:
-        assert f.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert [f.name for f in out] == [*(f"motor_envelope_{j}.png" for j in JOINT_NAMES[:3]),
+                                     "winding_temperature.png", "bus_current.png"]
     assert not list((tmp_path / "fig").glob(".*tmp*"))
+    for f in out:  # real images with something drawn on them
+        img = imread(f)
+        assert img.shape[0] > 300 and img.shape[1] > 400
+        assert img[..., :3].std() > 0.05
+    summ = rep.to_json()["joints"]
+    j0 = JOINT_NAMES[0]
+    # envelope figure: the 20 C envelope is the hand formula at the bus voltage and the
+    # current limit (see _hand_envelope), and the density holds the record's 0.5 s once
+    ax = figs[0].axes[0]
+    lines = [ln for ln in ax.get_lines() if ln.get_linestyle() == "-"]
+    w, hi = lines[0].get_xdata(), lines[0].get_ydata()
+    k = m.back_emf_v_s_per_rad
+    _, hi_h = _hand_envelope(k, float(m.line_resistance_ohm(20.0)), 24.0, k * 30.0, w)
+    np.testing.assert_allclose(hi, hi_h, rtol=1e-12)
+    assert float(np.nansum(ax.collections[0].get_array())) == pytest.approx(0.5, rel=1e-9)
+    # winding figure: one line per joint peaking at the reported winding peak
+    lines = figs[3].axes[0].get_lines()
+    peaks = {ln.get_label(): float(np.max(ln.get_ydata())) for ln in lines
+             if not ln.get_label().startswith("_")}
+    assert set(peaks) == set(JOINT_NAMES[:3])
+    for j in JOINT_NAMES[:3]:
+        assert peaks[j] == pytest.approx(summ[j]["winding_peak_c"], rel=1e-9)
+    # bus figure: block means over the record give the mean battery current
+    step = next(ln for ln in figs[4].axes[0].get_lines() if ln.get_label() == "mean")
+    t_b, i_b = step.get_xdata(), step.get_ydata()
+    widths = np.diff(np.append(t_b, 0.5))
+    assert float((i_b * widths).sum() / 0.5) == pytest.approx(
+        rep.to_json()["supply"]["mean_current_a"], rel=1e-6)
+    assert j0 in figs[0].axes[0].get_title()
 
 
 # -- the check's envelope against the hand formula and the simulator's clamp ------------------

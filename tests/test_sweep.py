@@ -425,11 +425,33 @@ def test_pareto_front_is_exactly_the_non_dominated_set(points, gx, gy):
 
 # --- plots -----------------------------------------------------------------------------------
 
-def test_plots_are_written(lengths_run, tmp_path):
+def test_plots_are_written_and_show_the_cases(lengths_run, tmp_path, monkeypatch):
+    from matplotlib.image import imread
+
+    from sim.figures import common
     from sim.figures.sweep import plot_metrics, plot_pareto
 
+    figs = []
+    real = common.save_figure_atomic
+    monkeypatch.setattr(common, "save_figure_atomic",
+                        lambda fig, path, **kw: (figs.append(fig), real(fig, path, **kw))[1])
     _, result = lengths_run
     f = plot_metrics(result, tmp_path / "metrics.png")
-    assert f is not None and f.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert f is not None
+    img = imread(f)
+    assert img.shape[0] > 300 and img[..., :3].std() > 0.05  # a real image, not blank
     assert plot_pareto(result, tmp_path / "pareto.png") is None  # no [pareto] table
     assert sorted(p.name for p in tmp_path.iterdir()) == ["metrics.png"]
+    # one panel per metric (rows) against the one varied numeric key (the thigh length; the
+    # shank length varies with it), each showing every ranked case at (length, metric)
+    (fig,) = figs
+    metrics = list(result.sweep.metrics)
+    keys = [a.get_xlabel() for a in fig.axes if a.get_xlabel()]
+    assert len(fig.axes) == len(metrics) * len(keys) and len(keys) == 2
+    for r, m in enumerate(metrics):
+        for c_, k in enumerate(["robot.leg.thigh_length_m", "robot.leg.shank_length_m"]):
+            ax = fig.axes[r * 2 + c_]
+            (dots,) = [ln for ln in ax.get_lines() if ln.get_label() == "ranked"]
+            want = sorted((c.params[k], c.metrics[m]) for c in result.cases)
+            np.testing.assert_array_equal(dots.get_xdata(), [x for x, _ in want])
+            np.testing.assert_array_equal(dots.get_ydata(), [y for _, y in want])
