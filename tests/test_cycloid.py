@@ -252,6 +252,12 @@ def test_check_reports_forces_under_the_spectrum_peak():
     v = sec.values
     assert v["peak_disc_torque_nm"] == pytest.approx(0.55 * 10.0)  # two discs, common practice
     assert v["peak_pin_force_n"] == pytest.approx(v["peak_pin_force_closed_form_n"], rel=0.05)
+    # and exactly the largest hand pin force over the check's 720 crank angles of a turn
+    # (geometry from first principles in _hand_ring_pin_pressures below)
+    hand = max(f for t in np.linspace(0, 2 * np.pi, 720, endpoint=False)
+               for f, _, _ in _hand_ring_pin_pressures(stage, 5.5, t))
+    assert v["peak_pin_force_n"] == pytest.approx(hand, rel=1e-9)
+    assert v["peak_output_pin_force_n"] == pytest.approx(5.5 / (1.5 * 0.016), rel=1e-9)
     assert v["peak_input_torque_per_disc_nm"] == pytest.approx(5.5 / 11)
     w_in = 10.0 * 11  # largest speed-bin edge times the ratio
     assert v["imbalance_force_n"] == pytest.approx(stage.disc_mass_kg * 0.0012 * w_in**2)
