@@ -343,6 +343,27 @@ def test_ring_pin_lobe_pressure_by_hand_at_a_fixed_crank_angle(theta, monkeypatc
                                stage.eccentricity_m, tc, theta)[k_max] == pytest.approx(f, rel=1e-9)
 
 
+@pytest.mark.parametrize("theta", [0.1, 0.3])
+def test_each_pressed_ring_pin_has_its_hand_pressure(theta, monkeypatch):
+    # pin by pin, convex and concave contacts alike: the check's force analysis is narrowed
+    # to one pin at a time (the others unloaded), so its pressure is that pin's alone
+    stage = c.cycloid_from_table(part_table(), "hip.toml")
+    tc = 5.0
+    pins = _hand_ring_pin_pressures(stage, tc, theta)
+    monkeypatch.setattr(c.CycloidStage, "_crank_angles", lambda self, steps=16:
+                        np.array([theta]))
+    full = g.ring_pin_forces_n
+    concave = 0
+    for k, (f, rho, p_hand) in enumerate(pins):
+        if f == 0:
+            continue
+        concave += rho < 0
+        monkeypatch.setattr(c, "ring_pin_forces_n", lambda *a, k=k: np.where(
+            np.arange(stage.ring_pins) == k, full(*a), 0.0))
+        assert stage.ring_contact_pressure_pa(tc) == pytest.approx(p_hand, rel=1e-9), k
+    assert concave >= 1
+
+
 def test_ring_pin_pressure_over_the_pitch_is_the_hand_maximum():
     # over the check's crank angles (one pin pitch) the reported pressure is the largest hand
     # pressure, and p grows as sqrt(T) (Hertz: p^2 ~ F)
