@@ -20,6 +20,7 @@ from sim.robot.statics import StanceStatics
 from sim.scenario.scenario_file import load_scenario
 
 from .conftest import SCENARIOS
+from .helpers import drive_set_args
 
 G = 9.80665
 
@@ -113,8 +114,8 @@ def test_peak_knee_gearbox_torque_rises_with_ratio_at_equal_output_limit(tmp_pat
     peaks, forces = [], []
     for n in (5.0, 9.0, 15.0):
         amps = 30.0 * 9.0 / n  # same output torque limit N k I_max as the demo knee
-        ratio = [f"robot.actuator.knee.gear_ratio={n}",
-                 f"robot.actuator.knee.current_limit_a={amps}"]
+        # the knee reducer: the generic rated part at ratio n, ideal (no losses or inertia)
+        ratio = drive_set_args({"knee.gear_ratio": n, "knee.current_limit_a": amps})
         peaks.append(_peak_gearbox_knee(_drop(tmp_path, f"n{n}", [
             *ratio, "ground.stiffness_n_m=0", "ground.damping_n_s_m=0"])[1]))
         forces.append(_peak_foot_force(_drop(tmp_path, f"soft{n}", ratio)[1]))
@@ -180,19 +181,21 @@ def test_motor_check_does_not_count_simulated_rotors_twice(tmp_path):
     from sim.checks.drivetrain_file import load_drivetrain
     from sim.checks.motor import check_motors
     from sim.checks.motor_duty import simulated_drive_effects
-    from sim.checks.motor_part import load_motor_part
     from sim.checks.supply import load_supply
 
     from .conftest import MODELS
 
     _, path = _drop(tmp_path, "rot", ["drive.rotor_inertia=exact", "record.decimation=1",
-                                      "ground.stiffness_n_m=0", "ground.damping_n_s_m=0"])
+                                      "ground.stiffness_n_m=0", "ground.damping_n_s_m=0",
+                                      "drive.losses=false"])
     with open_record(path) as rec:
-        assert simulated_drive_effects(rec) == (True, False)
+        # rotors simulated, losses not, and the rotor carried the reducer's inertia too
+        assert simulated_drive_effects(rec) == (True, False, True)
         tau = rec.read("joints/fl_knee/torque_nm")
         w = rec.read("joints/fl_knee/speed_rad_s")
     dt = load_drivetrain(MODELS / "drivetrain_demo.toml")
-    motor = load_motor_part(dt.joints["fl_knee"].motor_path)
+    motor = dt.joints["fl_knee"].motor
+    assert motor is not None
     supply = load_supply(dict(dt.supply), dt.file)
     rep = check_motors(str(path), {"fl_knee": (motor, 9.0, 1.0, 1.0, 0.0)}, supply)
     peak_motor = rep.joint_summary("fl_knee")["peak_torque_nm"]

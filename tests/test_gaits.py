@@ -45,7 +45,9 @@ CASES = {
 
 def _trot(tmp_path_factory, name: str):
     over = [f"segment.1.duration_s={TROT_S}", f"record.start_s={START_S}",
-            "record.decimation=5", *CASES[name]]
+            # every step: the mean of a spiky contact force sampled every 5th step is off by
+            # a few per cent (measured 3.3 % on the slope), more than the Newton check allows
+            "record.decimation=1", *CASES[name]]
     scn = load_scenario(SCENARIOS / "trot.toml", over)
     out = tmp_path_factory.mktemp(f"trot_{name}") / "trot.h5"
     return scn, run(scn, out)

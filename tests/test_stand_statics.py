@@ -16,8 +16,9 @@ import numpy as np
 import pytest
 
 from sim import JOINT_NAMES, LEGS
+from sim.loads.series import load_series_name
 from sim.record import open_record
-from sim.robot.model import model_from_data
+from sim.robot.model import model_from_texts
 from sim.robot.urdf import build_urdf
 
 G = 9.80665
@@ -29,12 +30,12 @@ def _last(rec, name, n=200):
 
 
 def _state(path):
-    import tomllib
-
     with open_record(path) as rec:
-        mdl = model_from_data(tomllib.loads(rec.attrs["model_toml"]), "record")
+        mdl = model_from_texts(rec.attrs["model_toml"], rec.attrs["drivetrain_toml"], "record")
         q = np.array([_last(rec, f"joints/{j}/angle_rad") for j in JOINT_NAMES])
-        tau = np.array([_last(rec, f"joints/{j}/torque_nm") for j in JOINT_NAMES])
+        # the torque the reducer output applies to the joint (the motor torque less the
+        # simulated reducer losses)
+        tau = np.array([_last(rec, load_series_name(rec, j)) for j in JOINT_NAMES])
         F = np.array([_last(rec, f"feet/{leg}/force_n") for leg in LEGS])
         pos = _last(rec, "base/position_m")
         quat = _last(rec, "base/orientation_xyzw")

@@ -20,7 +20,6 @@ from __future__ import annotations
 import itertools
 import json
 import math
-import shutil
 from pathlib import Path
 
 import numpy as np
@@ -335,24 +334,29 @@ def test_a_registered_provider_is_validated_and_evaluated(monkeypatch):
 
 def test_cli_provider_runs_a_command_in_process_and_reads_its_json(monkeypatch, tmp_path):
     model_file = tmp_path / "m.toml"
-    shutil.copy(MODELS / "fennec.toml", model_file)
+    model_file.write_text((MODELS / "fennec.toml").read_text().replace(
+        'drivetrain = "drivetrain_demo.toml"', f'drivetrain = "{MODELS / "drivetrain_demo.toml"}"'))
     monkeypatch.setitem(PROVIDERS, "mdl", PROVIDERS["run"])
     register_cli_provider("mdl", lambda ctx: ["model", str(model_file), "--json"],
                           {"total_mass_kg": float, "peak_torque_nm": {"*": float}}, "model")
     ctx = CaseContext(tmp_path / "none.h5", {}, "", "", None)
     doc = PROVIDERS["mdl"].produce(ctx)
-    # demo knee: ratio 9 x current limit 30 A x Kt 0.11937 N m/A (I_max Kt N at the output)
+    # demo knee: ratio 9 x current limit 30 A x Kt (I_max Kt N at the output), Kt from the
+    # demo motor's kV: 60 / (2 pi 80) N m/A
     assert evaluate_metric(parse_metric("mdl.peak_torque_nm.knee"), doc) == pytest.approx(
-        9 * 30 * 0.11937)
+        9 * 30 * 60 / (2 * math.pi * 80), rel=1e-12)
 
 
 def test_model_provider_gives_reflected_inertia_n_squared_j():
+    from sim.robot.model import load_model
     from sim.sweeps.providers import _model_provider
 
     text = (MODELS / "fennec.toml").read_text()
-    doc = _model_provider(CaseContext(Path("x"), {}, "", text, None))
+    drive = load_model(MODELS / "fennec.toml").drivetrain.to_toml()
+    doc = _model_provider(CaseContext(Path("x"), {}, "", text, drive))
     ev = evaluate_metric(parse_metric("model.actuators.fl_knee.reflected_inertia_kg_m2"), doc)
-    assert ev == pytest.approx(9 ** 2 * 6.5e-5, rel=1e-12)  # N^2 J_rotor, N = 9
+    # by hand from the demo parts: N^2 (J_rotor + J_in) + J_out, N = 9
+    assert ev == pytest.approx(9 ** 2 * (6.5e-5 + 3.0e-6) + 2.0e-5, rel=1e-12)
 
 
 def test_the_fork_server_preloads_modules_that_exist():

@@ -1,4 +1,4 @@
-"""``gaitload check RECORD_OR_MIX --drivetrain FILE``: reducers, motors and supply against the duty.
+"""``gaitload check RECORD_OR_MIX [--drivetrain FILE [--what-if]]``: parts against the duty.
 
 Parses the arguments, calls :func:`sim.checks.drivetrain_check.check_drivetrain` (the duty of
 a run record or a usage mix against the drivetrain's reducer and motor parts and its supply)
@@ -17,7 +17,7 @@ from pathlib import Path
 
 from sim.checks.drivetrain_check import check_drivetrain, write_disc_profiles
 from sim.checks.reducer import CheckSettings
-from sim.checks.report import exit_code, render_table, to_json
+from sim.checks.report import exit_code, render_table, to_json, what_if_lines
 from sim.core.errors import InputError
 
 HELP = "check reducers, motors and supply against the spectra"
@@ -26,8 +26,14 @@ HELP = "check reducers, motors and supply against the spectra"
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("duty", metavar="RECORD_OR_MIX",
                         help="a run record (.h5) or a usage mix (.toml)")
-    parser.add_argument("--drivetrain", required=True, metavar="FILE",
-                        help="drivetrain file assigning reducer (and motor) parts to joints")
+    parser.add_argument("--drivetrain", metavar="FILE",
+                        help="drivetrain file to check against (default: the drivetrain the "
+                             "record was simulated with, which it stores); one that differs "
+                             "from the simulated one needs --what-if")
+    parser.add_argument("--what-if", action="store_true",
+                        help="accept a --drivetrain that differs from the simulated one; every "
+                             "output then says what differs and that the duty was not "
+                             "re-simulated")
     parser.add_argument("--json", action="store_true", help="print only JSON on stdout")
     parser.add_argument("--plot", metavar="DIR",
                         help="write figures and cycloid disc profiles (CSV, SVG) to DIR")
@@ -58,20 +64,30 @@ def settings_from_args(args: argparse.Namespace) -> CheckSettings:
 
 
 def execute(args: argparse.Namespace) -> int:
+    if args.what_if and not args.drivetrain:
+        raise InputError("--what-if", None, "a --drivetrain FILE to compare with the simulated "
+                         "drivetrain")
     result = check_drivetrain(args.duty, args.drivetrain, settings_from_args(args),
-                              args.mission_h, args.allow_failed)
+                              args.mission_h, args.allow_failed, args.what_if)
     if args.plot:
         from sim.figures.check import plot_utilisation
+        from sim.figures.common import banner
 
         out = Path(args.plot)
-        plot_utilisation(result.report, out / "reducer_utilisation.svg")
-        write_disc_profiles(result.drivetrain, out)
-        if result.motors is not None:
-            from sim.figures.motor import plot_all
+        text = ("WHAT-IF: drivetrain differs from the simulated one; duty NOT re-simulated ("
+                + ", ".join(sorted({d["key"] for d in result.report.what_if})) + ")"
+                if result.report.what_if else None)
+        with banner(text):
+            plot_utilisation(result.report, out / "reducer_utilisation.svg")
+            write_disc_profiles(result.drivetrain, out)
+            if result.motors is not None:
+                from sim.figures.motor import plot_all
 
-            plot_all(result.motors, out)
+                plot_all(result.motors, out)
     if args.json:
         print(to_json(result.report), end="")
+        for line in what_if_lines(result.report):
+            print(line, file=sys.stderr)
         for line in result.quality.flag_lines() if result.quality else []:
             print(line, file=sys.stderr)
     else:

@@ -13,6 +13,7 @@ import argparse
 import json
 import sys
 from pathlib import Path
+from typing import Any
 
 HELP = "simulate a scenario and write an HDF5 run record"
 
@@ -40,6 +41,16 @@ def format_table(result) -> str:
     return "\n".join(lines)
 
 
+def drive_summary(scn: Any) -> dict[str, Any]:
+    """What the run simulated of its drivetrain: the file, the scenario's drive options and
+    what the simulation leaves out (the record stores the same)."""
+    dt = scn.model.drivetrain
+    drive = scn.data["drive"]
+    return {"file": dt.file, "rotor_inertia": drive["rotor_inertia"],
+            "losses": bool(drive["losses"]), "not_simulated": list(dt.notes),
+            "overrides": list(dt.overrides)}
+
+
 def execute(args: argparse.Namespace) -> int:
     from sim.scenario.scenario_file import load_scenario
 
@@ -52,13 +63,18 @@ def execute(args: argparse.Namespace) -> int:
 
     screen = screen_records([result.record])
     if args.json:
-        print(json.dumps({**result.to_json(), "quality": screen.to_json()}, indent=2,
-                         allow_nan=False))
+        print(json.dumps({**result.to_json(), "quality": screen.to_json(),
+                          "drivetrain": drive_summary(scn)}, indent=2, allow_nan=False))
         for line in screen.flag_lines():
             print(line, file=sys.stderr)
     else:
         print(f"record: {result.record}  status: {result.status}  "
               f"mass: {result.total_mass_kg:.2f} kg  simulated: {scn.duration_s:g} s")
+        d = drive_summary(scn)
+        print(f"drivetrain: {d['file']}  rotor inertia: {d['rotor_inertia']}  "
+              f"reducer losses: {'on' if d['losses'] else 'off'}")
+        for note in d["not_simulated"]:
+            print(f"  not simulated: {note}")
         print(format_table(result))
         print(screen.to_text())
         print(CAUTION)

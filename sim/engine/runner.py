@@ -99,6 +99,8 @@ def _record_attrs(scn: Scenario, eng: Engine, start_step: int) -> dict[str, Any]
     return {
         "tool_version": __version__, "scenario_toml": scn.to_toml(),
         "model_toml": scn.model.to_toml(), "time_step_s": dt,
+        "drivetrain_toml": scn.model.drivetrain.to_toml() if scn.model.drivetrain else "",
+        "drive_notes": list(scn.model.drivetrain.notes) if scn.model.drivetrain else [],
         "sample_period_s": dt * rec["decimation"],
         "decimation": rec["decimation"], "seed": d["seed"],
         "engine_version": f"pybullet {pb.getAPIVersion()}",

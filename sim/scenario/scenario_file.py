@@ -44,8 +44,8 @@ SCENARIO_SPEC: dict[str, Any] = {
         "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
                                "added to the child link) or 'exact' (geared rotor links)",
                                default="off", choices=("off", "approximate", "exact")),
-        "losses": Field(bool, "simulate the reducer friction and efficiency of the model's "
-                        "actuator tables", default=True),
+        "losses": Field(bool, "simulate the reducer friction and efficiency of the "
+                        "drivetrain's reducer parts", default=True),
         "efficiency_band_rad_s": Field(float, "speed band around rest over which the forward "
                                        "and back-driven efficiency are blended", default=0.01,
                                        min=0.0, min_inclusive=False),
@@ -164,9 +164,13 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
     values["trip"] = validate_disturbances(values["trip"], TRIP_SPEC, "trip", str(path))
     robot_path = (path.parent / values["robot"]).resolve()
     mdata = load_toml(robot_path, "robot model file")
+    parts_over = {}
     for key, value in model_over.items():
-        set_dotted(mdata, key, value)
-    model = model_from_data(mdata, str(robot_path))
+        if key.startswith("parts."):
+            parts_over[key[len("parts."):]] = value
+        else:
+            set_dotted(mdata, key, value)
+    model = model_from_data(mdata, str(robot_path), parts_over)
     if values["record"]["start_s"] >= sum(s["duration_s"] for s in segments):
         raise InputError(str(path), "record.start_s", "a start before the end of the scenario")
     if values["control"]["update_period_s"] < values["time_step_s"] * 0.999:
