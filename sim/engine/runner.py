@@ -190,6 +190,7 @@ class _Loop:
         pd0 = [0.0] * 12
         pd1 = [0.0] * 12
         prev0: list[float] | None = None  # the last update's command, for the hold
+        hold_command = self.scn.data["control"]["hold"] == "command"
         try:
             for i in range(nsteps):
                 st = getJS(r, J, physicsClientId=c)
@@ -209,7 +210,7 @@ class _Loop:
                     qdes, qddes, ff = _flat12(a_), _flat12(b_), _flat12(c_)
                     new0 = [f + kp * x + kd * v for f, kp, x, kd, v
                             in zip(ff, KPs, qdes, KDs, qddes, strict=True)]
-                    if prev0 is None or upd_every == 1:
+                    if prev0 is None or upd_every == 1 or not hold_command:
                         pd1 = [kp * v for kp, v in zip(KPs, qddes, strict=True)]
                     else:  # the whole command follows its last change (first-order hold):
                         # holding kd qd* and the feed-forward between updates made the
