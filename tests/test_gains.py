@@ -150,3 +150,60 @@ def test_a_mass_out_of_range_is_refused(tmp_path, kg, capsys):
     assert code == 2
     assert "3 to 60 kg" in capsys.readouterr().err
     assert list(tmp_path.iterdir()) == []
+
+
+# complete dynamics: rotor inertia, derived gains, a derived foot pad, the command held to its
+# last rate of change between updates (docs/gaits.md "Complete dynamics")
+COMPLETE = ["drive.rotor_inertia=approximate", "control.gains=derived", "ground.pad=true",
+            "control.hold=command"]
+
+
+@pytest.fixture(scope="module")
+def scaled_robots(tmp_path_factory):
+    d = tmp_path_factory.mktemp("robots")
+    out = {}
+    for kg in ("6", "15", "35"):
+        out[kg] = d / f"r{kg}.toml"
+        assert main(["model", str(MODELS / "fennec.toml"), "--scale-to-mass", kg, "-o",
+                     str(out[kg])]) == 0
+    return out
+
+
+@pytest.mark.parametrize("kg", [
+    pytest.param("6", marks=pytest.mark.xfail(
+        strict=True, reason="known gap, measured: the 6 kg robot's fr_knee peak is 4.05 N m "
+        "at 1 ms and 4.58 N m at 0.5 ms (12 %); RMS and the other knees agree")),
+    "15", "35"])
+def test_complete_dynamics_trot_is_clean_and_converged_in_the_step(scaled_robots, kg,
+                                                                   tmp_path, capsys):
+    from sim.engine.runner import run
+
+    peaks, rmss = {}, {}
+    for dt in (0.001, 0.0005):
+        scn = load_scenario(SCENARIOS / "trot.toml", [
+            f"robot={scaled_robots[kg]}", "segment.1.duration_s=5.0", f"time_step_s={dt}",
+            "control.update_period_s=0.002", *COMPLETE])
+        res = run(scn, tmp_path / f"t{dt}.h5")
+        assert res.status == "completed", res.detail
+        if dt == 0.001:
+            with h5py.File(tmp_path / f"t{dt}.h5") as f:
+                for j in JOINT_NAMES:
+                    if not j.endswith("abad"):
+                        hf = float(f[f"quality/{j}"].attrs["torque_high_frequency_share"])
+                        # at most 15 % of the torque RMS above 100 Hz (common practice)
+                        assert hf <= 0.15, (kg, j, hf)
+        peaks[dt] = {j: res.joints[j]["peak_torque_nm"] for j in JOINT_NAMES if "knee" in j}
+        rmss[dt] = {j: res.joints[j]["rms_torque_nm"] for j in JOINT_NAMES if "knee" in j}
+    # step-halving convergence within 10 % (common practice)
+    for j in peaks[0.001]:
+        assert peaks[0.001][j] == pytest.approx(peaks[0.0005][j], rel=0.10), (kg, j)
+        assert rmss[0.001][j] == pytest.approx(rmss[0.0005][j], rel=0.10), (kg, j)
+
+
+@pytest.mark.parametrize("kg", ["6", "35"])
+def test_complete_dynamics_stand_up_completes(scaled_robots, kg, tmp_path):
+    from sim.engine.runner import run
+
+    scn = load_scenario(SCENARIOS / "stand_up.toml", [f"robot={scaled_robots[kg]}", *COMPLETE])
+    res = run(scn, tmp_path / "s.h5")
+    assert res.status == "completed", res.detail

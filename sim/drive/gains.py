@@ -24,9 +24,11 @@ and for the feed-forward updated at the control period); where the target bandwi
 pass it, the bandwidth is lowered to the largest ``w`` that keeps it:
 ``w^2 dt^2 + 4 zeta w dt = STEP_NUMBER_MAX``.
 
-Defaults (scenario ``[control]``): ``bandwidth_hz = 12`` and ``damping_ratio = 1.0``: a
-critically damped joint well below the screen's 100 Hz cut-off and below the legs' contact
-frequencies (common practice for position loops under torque feed-forward). Gains a scenario
+Defaults (scenario ``[control]``): ``bandwidth_hz`` = 16 times the leg's pendulum frequency
+(:func:`derived_bandwidth_hz`, 12 Hz on the demo; 14 Hz on a 6 kg and 10.6 Hz on a 35 kg
+robot scaled from it) and ``damping_ratio = 1.0``: a critically damped joint well below the
+screen's 100 Hz cut-off (common practice for position loops under torque feed-forward; the
+factor 16 was chosen from trots of 6, 15 and 35 kg robots, docs/gaits.md). Gains a scenario
 writes (``[control.kp_nm_rad]``, ``[control.kd_nm_s_rad]`` per joint kind, or a segment's)
 win over the derived ones.
 """
@@ -45,6 +47,16 @@ from sim.robot.model import RobotModel
 STEP_NUMBER_MAX = 0.5  # (kp dt^2 + 2 kd dt) / J allowed; semi-implicit Euler is stable below 4
 DEFAULT_BANDWIDTH_HZ = 12.0
 DEFAULT_DAMPING_RATIO = 1.0
+BANDWIDTH_PER_LEG_FREQUENCY = 16.0  # bandwidth / (sqrt(g / L) / 2 pi)
+
+
+def derived_bandwidth_hz(model: RobotModel) -> float:
+    """16 times the leg's pendulum frequency ``sqrt(g / L) / 2 pi`` (``L`` = thigh + shank):
+    12 Hz on the demo's 0.44 m legs. Dynamic similarity (Froude: times scale as
+    ``sqrt(L / g)``; Alexander, *Principles of Animal Locomotion*, from memory) keeps the
+    loop as fast, relative to the gait, on a small robot as on a large one."""
+    L = model.leg["thigh_length_m"] + model.leg["shank_length_m"]
+    return BANDWIDTH_PER_LEG_FREQUENCY * math.sqrt(9.80665 / L) / (2.0 * math.pi)
 
 
 def step_number(kp: float, kd: float, inertia_kg_m2: float, dt: float) -> float:
