@@ -30,7 +30,12 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                         "robot. (robot.leg.thigh_length_m=0.24); repeatable")
     p.add_argument("--json", action="store_true", help="print only a JSON summary on stdout")
     p.add_argument("--strict", action="store_true",
-                   help="exit 1 when the record fails the quality screen")
+                   help="exit 1 when the record fails the quality screen (or, with "
+                        "--dt-study, when a figure changes beyond the limit)")
+    p.add_argument("--dt-study", action="store_true",
+                   help="also run at half the time step (record <OUT>_half_step.h5) and report "
+                        "per joint the change in peak, RMS and equivalent torque "
+                        "(sim/sweeps/timestep.py)")
 
 
 def format_table(result) -> str:
@@ -51,6 +56,24 @@ def drive_summary(scn: Any) -> dict[str, Any]:
             "overrides": list(dt.overrides)}
 
 
+def _dt_study(args: argparse.Namespace, out: Path) -> int:
+    from sim.sweeps.timestep import step_study
+
+    study = step_study(args.scenario, args.overrides, out, progress=not args.json)
+    if args.json:
+        print(json.dumps(study.to_json(), indent=2, allow_nan=False))
+    else:
+        print(study.to_text())
+        print(CAUTION)
+    if any(s in ("fell", "diverged") for s in study.status):
+        print(f"gaitload run: a step-study run did not complete ({', '.join(study.status)}); "
+              "records kept for inspection", file=sys.stderr)
+        return 3
+    for j, f, c in study.flagged if args.json else []:
+        print(f"STEP STUDY FLAGGED {j} {f} {100 * c:+.1f}%", file=sys.stderr)
+    return 1 if args.strict and study.flagged else 0
+
+
 def execute(args: argparse.Namespace) -> int:
     from sim.scenario.scenario_file import load_scenario
 
@@ -58,6 +81,8 @@ def execute(args: argparse.Namespace) -> int:
     from sim.engine.runner import run
 
     out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
+    if args.dt_study:
+        return _dt_study(args, out)
     result = run(scn, out, progress=not args.json)
     from sim.loads.quality import screen_records
 
