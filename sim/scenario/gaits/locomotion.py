@@ -292,16 +292,16 @@ class GaitController(SegmentController):
         for k in range(4):
             X, Y, Z = p[k][0] - sx, p[k][1] - sy_, p[k][2]
             vX, vY, vZ = vel[k]
-            w = fb[k]
-            u = 1.0 - w
+            wf = fb[k]  # share of the feedback map
+            u = 1.0 - wf
             bx = by = bz = vbx = vby = vbz = 0.0
-            if w > 0.0:  # the feedback map
-                bx = w * (r00 * X + r10 * Y + r20 * Z)
-                by = w * (r01 * X + r11 * Y + r21 * Z)
-                bz = w * (r02 * X + r12 * Y + r22 * Z)
-                vbx = w * (r00 * vX + r10 * vY + r20 * vZ)
-                vby = w * (r01 * vX + r11 * vY + r21 * vZ)
-                vbz = w * (r02 * vX + r12 * vY + r22 * vZ)
+            if wf > 0.0:  # the feedback map
+                bx = wf * (r00 * X + r10 * Y + r20 * Z)
+                by = wf * (r01 * X + r11 * Y + r21 * Z)
+                bz = wf * (r02 * X + r12 * Y + r22 * Z)
+                vbx = wf * (r00 * vX + r10 * vY + r20 * vZ)
+                vby = wf * (r01 * vX + r11 * vY + r21 * vZ)
+                vbz = wf * (r02 * vX + r12 * vY + r22 * vZ)
             if u > 0.0:  # the ground map
                 Zg = Z - self.z_stance[k] + z_ground
                 bx += u * (m00 * X + m10 * Y + m20 * Zg)
