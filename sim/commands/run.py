@@ -30,7 +30,12 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                         "robot. (robot.leg.thigh_length_m=0.24); repeatable")
     p.add_argument("--json", action="store_true", help="print only a JSON summary on stdout")
     p.add_argument("--strict", action="store_true",
-                   help="exit 1 when the record fails the quality screen")
+                   help="exit 1 when the record fails the quality screen (or, with "
+                        "--dt-study, when a figure changes beyond the limit)")
+    p.add_argument("--dt-study", action="store_true",
+                   help="also run at half the time step (record <OUT>_half_step.h5) and report "
+                        "per joint the change in peak, RMS and equivalent torque "
+                        "(sim/sweeps/timestep.py)")
 
 
 def format_table(result) -> str:
@@ -54,7 +59,8 @@ def drive_summary(scn: Any) -> dict[str, Any]:
 def gains_summary(scn: Any) -> dict[str, Any]:
     """The joint gains the run uses (per joint) and the targets they were derived for."""
     c = scn.data["control"]
-    return {"bandwidth_hz": c["bandwidth_hz"], "damping_ratio": c["damping_ratio"],
+    return {"gains": c["gains"], "hold": c["hold"], "bandwidth_hz": c["bandwidth_hz"],
+            "damping_ratio": c["damping_ratio"],
             "joints": {j: g.to_json() for j, g in scn.gains.items()}}
 
 
@@ -62,17 +68,33 @@ def format_gains(scn: Any) -> str:
     """One line per joint kind of the front left leg, and which joints were written."""
     c = scn.data["control"]
     g = scn.gains
-    head = (f"gains: derived for {c['bandwidth_hz']:g} Hz, damping ratio "
-            f"{c['damping_ratio']:g} (docs/control.md); ")
+    head = (f"gains ({c['gains']}; derived for {c['bandwidth_hz']:g} Hz, damping ratio "
+            f"{c['damping_ratio']:g}, docs/control.md): ")
     parts = []
     for kind in ("abad", "hip", "knee"):
         x = g[f"fl_{kind}"]
-        parts.append(f"{kind} kp {x.kp_nm_rad:.4g} kd {x.kd_nm_s_rad:.3g} ({x.source}"
-                     + (f", limited by the {x.limited_by}" if x.limited_by in
-                        ("time step", "control period") else "") + ")")
-    written = [j for j, x in g.items() if x.source != "derived"]
+        parts.append(f"{kind} kp {x.kp_nm_rad:.4g} kd {x.kd_nm_s_rad:.3g} ({x.source})")
+    written = [j for j, x in g.items() if not x.source.startswith("derived")]
     tail = f"; written in the scenario: {', '.join(written)}" if written else ""
     return head + "; ".join(parts) + tail
+
+
+def _dt_study(args: argparse.Namespace, out: Path) -> int:
+    from sim.sweeps.timestep import step_study
+
+    study = step_study(args.scenario, args.overrides, out, progress=not args.json)
+    if args.json:
+        print(json.dumps(study.to_json(), indent=2, allow_nan=False))
+    else:
+        print(study.to_text())
+        print(CAUTION)
+    if any(s in ("fell", "diverged") for s in study.status):
+        print(f"gaitload run: a step-study run did not complete ({', '.join(study.status)}); "
+              "records kept for inspection", file=sys.stderr)
+        return 3
+    for j, f, c in study.flagged if args.json else []:
+        print(f"STEP STUDY FLAGGED {j} {f} {100 * c:+.1f}%", file=sys.stderr)
+    return 1 if args.strict and study.flagged else 0
 
 
 def execute(args: argparse.Namespace) -> int:
@@ -82,6 +104,8 @@ def execute(args: argparse.Namespace) -> int:
     from sim.engine.runner import run
 
     out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
+    if args.dt_study:
+        return _dt_study(args, out)
     result = run(scn, out, progress=not args.json)
     from sim.loads.quality import screen_records
 

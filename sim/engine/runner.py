@@ -8,7 +8,7 @@ each actuator's envelope. The named parts of the loop live beside it, each chang
 
     world      (:mod:`.world`)      the engine, the robot and every engine trap handled
     clamp      (:mod:`.clamp`)      actuator envelope limits and saturation flags
-    control    (this module)        the PD law between control updates, second-order hold
+    control    (this module)        the PD law between control updates, hold of the command
     disturb    (:mod:`.disturb`)    pushes and trips
     recording  (:mod:`.recording`)  histograms and exact statistics, sampled series
     health     (:mod:`.health`)     falls and divergence end the run with that status
@@ -21,6 +21,7 @@ name before the loop (no per-step attribute lookups, no numpy per step; see
 
 from __future__ import annotations
 
+import json
 import os
 import sys
 from pathlib import Path
@@ -101,6 +102,8 @@ def _record_attrs(scn: Scenario, eng: Engine, start_step: int) -> dict[str, Any]
         "model_toml": scn.model.to_toml(), "time_step_s": dt,
         "drivetrain_toml": scn.model.drivetrain.to_toml() if scn.model.drivetrain else "",
         "drive_notes": list(scn.model.drivetrain.notes) if scn.model.drivetrain else [],
+        "control_gains_json": json.dumps({j: g.to_json() for j, g in scn.gains.items()},
+                                         sort_keys=True),
         "sample_period_s": dt * rec["decimation"],
         "decimation": rec["decimation"], "seed": d["seed"],
         "engine_version": f"pybullet {pb.getAPIVersion()}",
@@ -135,7 +138,7 @@ class _Loop:
         self.scn, self.eng, self.rec = scn, eng, rec
         self.dt = eng.dt
         self.clamp = make_clamp([Envelope.of(scn.model.actuators[j]) for j in JOINT_NAMES])
-        # per joint, derived from the robot or written in the scenario (Scenario.gains)
+        # per joint: derived from the robot unless the scenario writes them (sim/drive/gains.py)
         self.kp = [scn.gains[j].kp_nm_rad for j in JOINT_NAMES]
         self.kd = [scn.gains[j].kd_nm_s_rad for j in JOINT_NAMES]
         self.dec = d["record"]["decimation"]
@@ -181,14 +184,13 @@ class _Loop:
         dtu = upd_every * dt
         f_ext = [0.0, 0.0, 0.0]
         last_contact, contact_at = self.last_contact, self.contact_at
-        # control: tc_j = pd0_j + pd1_j lag + pd2_j lag^2 - kp_j q_j - kd_j qd_j with
-        # pd0 = ff + kp q* + kd qd*, pd1 = kp qd* + kd a*, pd2 = kp a* / 2 (fixed between
-        # control updates): the targets follow q* + qd* lag + a* lag^2 / 2 and qd* + a* lag,
-        # a* = (qd* - qd*_previous) / update period (second-order hold, _hold_terms)
+        # control: tc_j = pd0_j + pd1_j lag - kp_j q_j - kd_j qd_j with
+        # pd0 = ff + kp q* + kd qd* at the last update and pd1 its rate of change over the
+        # last update period (kp qd* at a segment's first update), fixed between updates
         pd0 = [0.0] * 12
         pd1 = [0.0] * 12
-        pd2 = [0.0] * 12
-        qd_last: list[float] | None = None
+        prev0: list[float] | None = None  # the last update's command, for the hold
+        hold_command = self.scn.data["control"]["hold"] == "command"
         try:
             for i in range(nsteps):
                 st = getJS(r, J, physicsClientId=c)
@@ -206,17 +208,23 @@ class _Loop:
                                     last_contact if contact_at == i_global else None)
                     a_, b_, c_ = ctrl.update(i * dt, state)
                     qdes, qddes, ff = _flat12(a_), _flat12(b_), _flat12(c_)
-                    pd0, pd1, pd2 = _hold_terms(ff, qdes, qddes, qd_last, KPs, KDs, dtu)
-                    qd_last = qddes
+                    new0 = [f + kp * x + kd * v for f, kp, x, kd, v
+                            in zip(ff, KPs, qdes, KDs, qddes, strict=True)]
+                    if prev0 is None or upd_every == 1 or not hold_command:
+                        pd1 = [kp * v for kp, v in zip(KPs, qddes, strict=True)]
+                    else:  # the whole command follows its last change (first-order hold):
+                        # holding kd qd* and the feed-forward between updates made the
+                        # torque step at every update, a ripple at the update rate
+                        pd1 = [(x - y) / dtu for x, y in zip(new0, prev0, strict=True)]
+                    pd0 = prev0 = new0
                     plan = [1.0 if f else 0.0 for f in ctrl.planned_stance()]
                     upd_i = i
                     if i_global >= start_step:
                         observe(state, ctrl, seg_sum, dtu)
-                # targets between updates follow the planned joint speed and acceleration
+                # between updates the command follows its last rate of change
                 lag = (i - upd_i) * dt
-                l2 = lag * lag
-                tc = [a + b * lag + e * l2 - kp * x - kd * v for a, b, e, kp, kd, x, v
-                      in zip(pd0, pd1, pd2, KPs, KDs, q, qd, strict=True)]
+                tc = [a + b * lag - kp * x - kd * v for a, b, kp, kd, x, v
+                      in zip(pd0, pd1, KPs, KDs, q, qd, strict=True)]
                 tau, sat = clamp(tc, qd)
                 # at the joints: tau, or the mesh torque where backlash is simulated
                 tj = drv.transmit(tau, q, qd) if drv_mesh else tau
@@ -257,24 +265,6 @@ class _Loop:
             self.last_contact, self.contact_at = last_contact, contact_at
 
 
-def _hold_terms(ff: list[float], qdes: list[float], qddes: list[float],
-                qd_last: list[float] | None, kp: list[float], kd: list[float], period_s: float
-                ) -> tuple[list[float], list[float], list[float]]:
-    """Coefficients of the PD torque between two control updates, ``pd0 + pd1 lag + pd2
-    lag^2 - kp q - kd qd`` (runner loop): the targets are held to second order, the joint
-    acceleration ``a* = (qd* - qd*_last) / period`` estimated from the last two updates (zero
-    at the first update of a segment). A first-order hold would leave the speed target a
-    staircase, whose steps ``kd a* T`` make the torque a sawtooth at the update period
-    (measured on the demo trot: 0.87 reversals per step in swing, hip; 0.28 with this hold)."""
-    pd0 = [f + p * x + d * v for f, p, x, d, v in zip(ff, kp, qdes, kd, qddes, strict=True)]
-    if qd_last is None:
-        return pd0, [p * v for p, v in zip(kp, qddes, strict=True)], [0.0] * len(ff)
-    acc = [(v - w) / period_s for v, w in zip(qddes, qd_last, strict=True)]
-    pd1 = [p * v + d * a for p, v, d, a in zip(kp, qddes, kd, acc, strict=True)]
-    pd2 = [0.5 * p * a for p, a in zip(kp, acc, strict=True)]
-    return pd0, pd1, pd2
-
-
 def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> RunResult:
     d = scn.data
     dt = eng.dt
@@ -296,7 +286,6 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                            d["record"]["decimation"])
         if rec.step_series:
             w.put_attrs("steps", {"period_s": dt, "start_s": start_step * dt})
-        _put_gains(w, scn, eng)
         loop = _Loop(scn, eng, rec, statics, events)
         if progress and sys.stderr.isatty():
             from tqdm import tqdm
@@ -329,18 +318,6 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
                      loop.i_global / elapsed if elapsed > 0 else 0.0, run_figs,
                      [{"name": n, "kind": k, "start_s": a, "end_s": b, **f}
                       for (n, k, a, b), f in zip(seg_table, seg_figs, strict=True)])
-
-
-def _put_gains(w: RecordWriter, scn: Scenario, eng: Engine) -> None:
-    """The joint gains used and where they came from (``/control``, ``/control/<joint>``)."""
-    from sim.drive.gains import record_attrs
-
-    c = scn.data["control"]
-    head, per_joint = record_attrs(scn.gains, c["bandwidth_hz"], c["damping_ratio"],
-                                   scn.data["drive"]["rotor_inertia"] != "off")
-    w.put_attrs("control", head)
-    for j, attrs in per_joint.items():
-        w.put_attrs(f"control/{j}", attrs)
 
 
 def _finish(w: RecordWriter, eng: Engine, loop: _Loop,

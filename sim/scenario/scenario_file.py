@@ -10,17 +10,19 @@ are validated by :mod:`sim.scenario.segments`.
 from __future__ import annotations
 
 import copy
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from sim import JOINT_KINDS, JOINT_NAMES
 from sim.core.config import Field, dump_toml, load_toml, parse_override, set_dotted, validate
 from sim.core.errors import InputError
-from sim.drive.gains import DEFAULT_BANDWIDTH_HZ, DEFAULT_DAMPING_RATIO, JointGain
+from sim.drive.gains import DEFAULT_BANDWIDTH_HZ, DEFAULT_DAMPING_RATIO
 from sim.robot.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
+
+WRITTEN_KP, WRITTEN_KD = 150.0, 3.0  # the written gains' defaults, N m/rad and N m s/rad
 
 SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump", "bound",
                  "pronk")
@@ -35,16 +37,20 @@ SCENARIO_SPEC: dict[str, Any] = {
                           min=0.05, max=3.0),
         "slope_rad": Field(float, "ground slope, rising along +x (uphill when walking forward)",
                            default=0.0, min=-0.6, max=0.6),
-        "stiffness_n_m": Field(float, "contact stiffness per foot; 0 = rigid contact",
-                               default=0.0, min=0.0),
-        "damping_n_s_m": Field(float, "contact damping per foot (with stiffness)", default=0.0,
-                               min=0.0),
+        "stiffness_n_m": Field(float, "contact stiffness per foot; 0 = the engine's rigid "
+                               "contact; left out = a foot pad derived from the robot's weight "
+                               "(foot_pad_n_m), or rigid with pad = false", min=0.0),
+        "pad": Field(bool, "a foot pad derived from the robot's weight where stiffness_n_m is "
+                     "left out (false: the engine's rigid contact)", default=True),
+        "damping_n_s_m": Field(float, "contact damping per foot (with stiffness); left out "
+                               "with the stiffness = derived", min=0.0),
         "restitution": Field(float, "coefficient of restitution", default=0.0, min=0.0, max=1.0),
     },
     "drive": {
-        "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
-                               "added to the child link) or 'exact' (geared rotor links)",
-                               default="off", choices=("off", "approximate", "exact")),
+        "rotor_inertia": Field(str, "motor rotors: 'exact' (geared rotor links; the reference, "
+                               "docs/dynamics.md), 'approximate' (N^2 J_r added to the child "
+                               "link) or 'off' (rigid joints)",
+                               default="exact", choices=("off", "approximate", "exact")),
         "losses": Field(bool, "simulate the reducer friction and efficiency of the "
                         "drivetrain's reducer parts", default=True),
         "efficiency_band_rad_s": Field(float, "speed band around rest over which the forward "
@@ -63,15 +69,24 @@ SCENARIO_SPEC: dict[str, Any] = {
                         min=0.0, min_inclusive=False),
     },
     "control": {
-        # unset: derived from the robot (sim/drive/gains.py, docs/control.md); a joint kind
-        # (abad, hip, knee) or a joint (fl_knee) given here wins, the joint over its kind
-        "kp_nm_rad": {k: Field(float, "joint stiffness; unset = derived from the robot",
-                               min=0.0) for k in (*JOINT_KINDS, *JOINT_NAMES)},
-        "kd_nm_s_rad": {k: Field(float, "joint damping; unset = derived from the robot",
-                                 min=0.0) for k in (*JOINT_KINDS, *JOINT_NAMES)},
-        "bandwidth_hz": Field(float, "natural frequency the derived gains aim at",
+        "gains": Field(str, "'derived': from the robot's joint inertias, bandwidth_hz and "
+                       "damping_ratio, where the kp/kd tables leave a joint out "
+                       "(sim/drive/gains.py, docs/control.md); 'written': the tables, "
+                       "150 N m/rad and 3 N m s/rad where they leave a joint out",
+                       default="derived", choices=("written", "derived")),
+        "hold": Field(str, "between control updates: 'targets' (targets follow the planned "
+                      "joint speed, feed-forward held) or 'command' (the whole command follows "
+                      "its last rate of change: no ripple at the update rate)",
+                      default="targets", choices=("targets", "command")),
+        # a joint kind (abad, hip, knee) or a joint (fl_knee); a joint's value wins over its
+        # kind's, and either over the derived gains
+        "kp_nm_rad": {k: Field(float, "joint stiffness", min=0.0)
+                      for k in (*JOINT_KINDS, *JOINT_NAMES)},
+        "kd_nm_s_rad": {k: Field(float, "joint damping", min=0.0)
+                        for k in (*JOINT_KINDS, *JOINT_NAMES)},
+        "bandwidth_hz": Field(float, "target bandwidth of the derived joint gains",
                               default=DEFAULT_BANDWIDTH_HZ, **POS),
-        "damping_ratio": Field(float, "damping ratio of the derived gains",
+        "damping_ratio": Field(float, "damping ratio of the derived joint gains",
                                default=DEFAULT_DAMPING_RATIO, **POS),
         "update_period_s": Field(float, "period of target and feed-forward updates",
                                  default=0.002, **POS),
@@ -120,7 +135,7 @@ class Scenario:
     file: str
     model: RobotModel
     segments: tuple[dict[str, Any], ...]
-    gains: dict[str, JointGain]  # per joint, derived or written (resolve_gains)
+    gains: dict[str, Any] = field(default_factory=dict)  # joint -> sim.drive.gains.JointGains
 
     @property
     def time_step_s(self) -> float:
@@ -187,30 +202,52 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
         raise InputError(str(path), "control.update_period_s", "at least one time step")
     from sim.drive.dynamics import DriveOptions, check_mesh  # the mesh must suit the time step
 
-    options = DriveOptions.from_table(values["drive"])
-    check_mesh(model, options, values["time_step_s"], str(path))
-    gains = resolve_gains(model, values, options.rotor_inertia != "off")
+    check_mesh(model, DriveOptions.from_table(values["drive"]), values["time_step_s"], str(path))
+    _resolve_ground(values, model, str(path))
+    from sim.drive.gains import joint_gains
+    from sim.scenario.segments import stance_angles
+
+    ctl = values["control"]
+    if ctl["gains"] == "written":  # the tables, with their defaults where they leave a kind out
+        for key, default in (("kp_nm_rad", WRITTEN_KP), ("kd_nm_s_rad", WRITTEN_KD)):
+            ctl[key] = {k: (default if v is None and k in JOINT_KINDS else v)
+                        for k, v in ctl[key].items()}
+    gains = joint_gains(model, stance_angles(model), values["time_step_s"],
+                        values["drive"]["rotor_inertia"] != "off", ctl["bandwidth_hz"],
+                        ctl["damping_ratio"], ctl["kp_nm_rad"], ctl["kd_nm_s_rad"],
+                        ctl["update_period_s"])
     return Scenario(values, str(path), model, tuple(segments), gains)
 
 
-def resolve_gains(model: RobotModel, values: dict[str, Any], rotors: bool
-                  ) -> dict[str, JointGain]:
-    """Per joint: the gains derived from the robot (:func:`sim.drive.gains.derive_gains` in
-    the nominal stance, with the rotor inertia when ``rotors``), replaced where the scenario's
-    ``[control]`` writes them, a joint's value over its kind's."""
-    from sim.drive.gains import derive_gains, written_gain
-    from sim.scenario.gaits.base import stance_angles
+PAD_DEFLECTION_M = 0.004  # static deflection of a foot pad under half the weight
+PAD_DAMPING_RATIO = 0.1
 
-    c = values["control"]
-    derived = derive_gains(model, stance_angles(model), values["time_step_s"],
-                           c["update_period_s"], c["bandwidth_hz"], c["damping_ratio"], rotors)
-    out = {}
-    for j in JOINT_NAMES:
-        kind = j.split("_")[1]
-        kp = c["kp_nm_rad"][j] if c["kp_nm_rad"][j] is not None else c["kp_nm_rad"][kind]
-        kd = c["kd_nm_s_rad"][j] if c["kd_nm_s_rad"][j] is not None else c["kd_nm_s_rad"][kind]
-        out[j] = derived[j] if kp is None and kd is None else written_gain(derived[j], kp, kd)
-    return out
+
+def foot_pad_n_m(mass_kg: float) -> tuple[float, float]:
+    """A foot pad for a robot of ``mass_kg`` (payload included): stiffness per foot that
+    deflects ``PAD_DEFLECTION_M`` = 4 mm under half the weight (two feet down in a trot), and
+    the damping that gives a damping ratio of 0.1 on that half mass: ``k = m g / (2 d)``,
+    ``c = 2 zeta sqrt(k m / 2)``. Common practice: rubber feet of legged robots deflect a few
+    millimetres. A contact this soft lasts tens of steps, so its forces converge in the time
+    step, where the engine's rigid contact stops a foot in one step; the damping is low because
+    the engine's spring-damper contact applies ``c v`` the instant a foot touches (a larger
+    ratio made a one-step force spike at every touchdown: measured, docs/gaits.md)."""
+    k = mass_kg * 9.80665 / (2.0 * PAD_DEFLECTION_M)
+    return k, 2.0 * PAD_DAMPING_RATIO * (k * mass_kg / 2.0) ** 0.5
+
+
+def _resolve_ground(values: dict[str, Any], model: RobotModel, file: str) -> None:
+    g = values["ground"]
+    if g["stiffness_n_m"] is None and not g["pad"]:
+        g["stiffness_n_m"] = 0.0
+    if g["stiffness_n_m"] is None:
+        if g["damping_n_s_m"] is not None:
+            raise InputError(file, "ground.damping_n_s_m", "a ground.stiffness_n_m with it "
+                             "(left out, both are derived from the robot's weight)")
+        k, c = foot_pad_n_m(model.total_mass_kg + values["payload"]["mass_kg"])
+        g["stiffness_n_m"], g["damping_n_s_m"] = round(k, 3), round(c, 3)
+    else:
+        g["damping_n_s_m"] = 0.0 if g["damping_n_s_m"] is None else g["damping_n_s_m"]
 
 
 def _check_override_key(data: dict[str, Any], key: str) -> None:

@@ -292,7 +292,7 @@ class GaitController(SegmentController):
         for k in range(4):
             X, Y, Z = p[k][0] - sx, p[k][1] - sy_, p[k][2]
             vX, vY, vZ = vel[k]
-            wf = fb[k]
+            wf = fb[k]  # share of the feedback map
             u = 1.0 - wf
             bx = by = bz = vbx = vby = vbz = 0.0
             if wf > 0.0:  # the feedback map
