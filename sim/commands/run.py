@@ -83,18 +83,28 @@ def _dt_study(args: argparse.Namespace, out: Path) -> int:
     from sim.sweeps.timestep import step_study
 
     study = step_study(args.scenario, args.overrides, out, progress=not args.json)
+    done = not any(s in ("fell", "diverged") for s in study.status)
+    screen = study.screen() if done and study.at_step else None
     if args.json:
-        print(json.dumps(study.to_json(), indent=2, allow_nan=False))
+        doc = study.to_json()
+        if screen is not None:
+            doc["quality"] = screen.to_json()
+        print(json.dumps(doc, indent=2, allow_nan=False))
     else:
         print(study.to_text())
+        if screen is not None:
+            print(screen.to_text())
         print(CAUTION)
-    if any(s in ("fell", "diverged") for s in study.status):
+    if not done:
         print(f"gaitload run: a step-study run did not complete ({', '.join(study.status)}); "
               "records kept for inspection", file=sys.stderr)
         return 3
     for j, f, c in study.flagged if args.json else []:
         print(f"STEP STUDY FLAGGED {j} {f} {100 * c:+.1f}%", file=sys.stderr)
-    return 1 if args.strict and study.flagged else 0
+    if args.json and screen is not None and screen.flag_line():
+        print(screen.flag_line(), file=sys.stderr)
+    flagged = bool(study.flagged) or (screen is not None and screen.flagged)
+    return 1 if args.strict and flagged else 0
 
 
 def execute(args: argparse.Namespace) -> int:
