@@ -119,3 +119,29 @@ def test_mass_out_of_range_exits_2_without_output(tmp_path, capsys, bad):
 def test_scale_needs_an_output(tmp_path, capsys):
     assert main(["model", "--scale-to-mass", "10"]) == 2
     assert "-o" in capsys.readouterr().err
+
+
+def test_exact_rotor_links_keep_their_inertia_in_the_engine(tmp_path):
+    """Regression: a rotor link's transverse inertia J_r/2, written to 9 digits, could break
+    the triangle inequality Ixx + Iyy >= Izz of a rigid body's principal inertias (any
+    dynamics text), and pybullet then set the link's inertia to zero ("Bad inertia tensor
+    properties"), silently dropping rotors of scaled robots. The engine must report every
+    rotor's axial inertia as written."""
+    from sim.engine.world import Engine, pb
+    from sim.robot.urdf import rotor_link_name
+    from sim.scenario.scenario_file import load_scenario
+
+    out = tmp_path / "r6.toml"
+    assert main(["model", "--scale-to-mass", "6", "-o", str(out)]) == 0
+    scn = load_scenario(MODELS.parent / "scenarios" / "stand.toml",
+                        [f"robot={out}", 'drive.rotor_inertia="exact"'])
+    eng = Engine(scn)
+    try:
+        names = {pb.getJointInfo(eng.robot, i, physicsClientId=eng.cid)[12].decode(): i
+                 for i in range(pb.getNumJoints(eng.robot, physicsClientId=eng.cid))}
+        for j, a in scn.model.actuators.items():
+            info = pb.getDynamicsInfo(eng.robot, names[rotor_link_name(j)],
+                                      physicsClientId=eng.cid)
+            assert max(info[2]) == pytest.approx(a.rotor_inertia_kg_m2, rel=1e-6), j
+    finally:
+        eng.close()
