@@ -82,7 +82,7 @@ from typing import Any
 import h5py
 import numpy as np
 
-from sim.core.atomic import create_temp, same_file
+from sim.core.atomic import create_temp, forget_temp, same_file
 from sim.core.errors import RecordError
 from sim.core.streams import HighFrequencyShare, PowerSums, SignReversals
 
@@ -156,6 +156,7 @@ class RecordWriter:
                                   "(it was replaced while being opened)")
         except BaseException:
             self.tmp.unlink(missing_ok=True)
+            forget_temp(self.tmp)
             raise
         finally:
             os.close(fd)
@@ -338,6 +339,7 @@ class RecordWriter:
             target = partial_path(self.path)
             self.replaced_existing = False
         os.replace(self.tmp, target)
+        forget_temp(self.tmp)
         self._done = True
         return target
 
@@ -347,6 +349,7 @@ class RecordWriter:
             self._f.close()
         finally:
             self.tmp.unlink(missing_ok=True)
+            forget_temp(self.tmp)
             self._done = True
 
     def __enter__(self) -> RecordWriter:

@@ -18,7 +18,9 @@ from pathlib import Path
 from sim.checks.drivetrain_check import check_drivetrain, write_disc_profiles
 from sim.checks.reducer import CheckSettings
 from sim.checks.report import exit_code, render_table, to_json
+from sim.core.atomic import output_batch
 from sim.core.errors import InputError
+from sim.core.paths import check_output_dir
 
 HELP = "check reducers, motors and supply against the spectra"
 
@@ -58,18 +60,21 @@ def settings_from_args(args: argparse.Namespace) -> CheckSettings:
 
 
 def execute(args: argparse.Namespace) -> int:
+    if args.plot:
+        check_output_dir(args.plot, "--plot")
     result = check_drivetrain(args.duty, args.drivetrain, settings_from_args(args),
                               args.mission_h, args.allow_failed)
     if args.plot:
         from sim.figures.check import plot_utilisation
 
         out = Path(args.plot)
-        plot_utilisation(result.report, out / "reducer_utilisation.svg")
-        write_disc_profiles(result.drivetrain, out)
-        if result.motors is not None:
-            from sim.figures.motor import plot_all
+        with output_batch():  # every figure and profile, or none
+            plot_utilisation(result.report, out / "reducer_utilisation.svg")
+            write_disc_profiles(result.drivetrain, out)
+            if result.motors is not None:
+                from sim.figures.motor import plot_all
 
-            plot_all(result.motors, out)
+                plot_all(result.motors, out)
     if args.json:
         print(to_json(result.report), end="")
         for line in result.quality.flag_lines() if result.quality else []:

@@ -88,7 +88,8 @@ def _terminate_as_interrupt() -> Callable[[], None]:
         return lambda: None
     old = {}
     for sig in (signal.SIGTERM, getattr(signal, "SIGHUP", None)):
-        if sig is not None:
+        # a signal ignored on purpose (nohup ignores SIGHUP) stays ignored
+        if sig is not None and signal.getsignal(sig) is not signal.SIG_IGN:
             old[sig] = signal.signal(sig, _raise_interrupt)
 
     def restore() -> None:

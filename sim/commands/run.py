@@ -41,12 +41,14 @@ def format_table(result) -> str:
 
 
 def execute(args: argparse.Namespace) -> int:
+    from sim.core.paths import check_output_file
     from sim.scenario.scenario_file import load_scenario
 
+    out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
+    check_output_file(out, "-o")
     scn = load_scenario(args.scenario, args.overrides)  # bad input fails before any output
     from sim.engine.runner import run
 
-    out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
     result = run(scn, out, progress=not args.json)
     from sim.loads.quality import screen_records
 

@@ -37,7 +37,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def execute(args: argparse.Namespace) -> int:
+    from sim.core.atomic import output_batch
     from sim.core.errors import InputError
+    from sim.core.paths import check_output_dir
     from sim.sweeps.cases import jsonable
     from sim.sweeps.executors import run_sweep
     from sim.sweeps.ranking import CAUTION, format_table, write_outputs
@@ -45,18 +47,20 @@ def execute(args: argparse.Namespace) -> int:
 
     if args.workers is not None and args.workers < 1:
         raise InputError("--workers", None, "a worker count of at least 1", args.workers)
-    sweep = load_sweep(args.sweep)  # every input error is raised here, before any output
     out = Path(args.output) if args.output else Path(Path(args.sweep).stem + "_sweep")
+    check_output_dir(out, "-o")
+    sweep = load_sweep(args.sweep)  # every input error is raised here, before any output
     t0 = time.perf_counter()
     result = run_sweep(sweep, out, workers=args.workers, cluster=args.cluster,
                        shared_output=args.shared_output, progress=True)
     elapsed = time.perf_counter() - t0
-    csv_path, json_path = write_outputs(result)
     plots: list[Path] = []
-    if not args.no_plots:
-        from sim.figures.sweep import write_plots
+    with output_batch():  # the table, the summary and the plots, all or none
+        csv_path, json_path = write_outputs(result)
+        if not args.no_plots:
+            from sim.figures.sweep import write_plots
 
-        plots = write_plots(result, out / "plots")
+            plots = write_plots(result, out / "plots")
     summary = result.summary()
     print(f"gaitload sweep: {len(result.cases)} cases, {result.n_run} run, {result.n_reused} "
           f"reused, {elapsed:.1f} s", file=sys.stderr)

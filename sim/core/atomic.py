@@ -31,6 +31,24 @@ _HOST = re.sub(r"[^A-Za-z0-9-]", "", socket.gethostname().split(".")[0])[:32] or
 _TEMP_TAG = re.compile(re.escape(_HOST) + r"-(?P<pid>\d+)-[a-z0-9_]+\.tmp")
 
 
+# temporary files this process created and has not yet renamed or removed (see remove_own_temps)
+_OWN_TEMPS: set[str] = set()
+
+
+def forget_temp(path: str | Path) -> None:
+    """``path`` (from :func:`create_temp`) was renamed into place or removed."""
+    _OWN_TEMPS.discard(str(path))
+
+
+def remove_own_temps() -> None:
+    """Remove every temporary file this process still has open: called by a process that is
+    told to stop at once (a sweep worker whose sweep was killed), so it leaves none behind."""
+    for name in list(_OWN_TEMPS):
+        with contextlib.suppress(OSError):
+            os.unlink(name)
+        _OWN_TEMPS.discard(name)
+
+
 def file_mode() -> int:
     """Permission bits of a new regular file of this process: 0666 less the umask."""
     try:  # Linux: read the umask without changing it (thread-safe)
@@ -85,11 +103,13 @@ def create_temp(target: str | Path) -> tuple[int, Path]:
     remove_stale_temps(p)
     fd, tmp = tempfile.mkstemp(dir=p.parent, prefix=f".{p.name}.{_HOST}-{os.getpid()}-",
                                suffix=".tmp")
+    _OWN_TEMPS.add(tmp)
     try:
         os.fchmod(fd, file_mode())
     except BaseException:
         os.close(fd)
         os.unlink(tmp)
+        forget_temp(tmp)
         raise
     return fd, Path(tmp)
 
@@ -112,6 +132,8 @@ def _write_now(path: Path, data: bytes) -> None:
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
+    finally:
+        forget_temp(tmp)
 
 
 class OutputBatch:
@@ -140,12 +162,14 @@ class OutputBatch:
         except BaseException:
             for tmp, _ in temps:
                 tmp.unlink(missing_ok=True)
+                forget_temp(tmp)
             for d in reversed(made_dirs):
                 with contextlib.suppress(OSError):
                     d.rmdir()
             raise
         for tmp, path in temps:
             os.replace(tmp, path)
+            forget_temp(tmp)
         return list(self.files)
 
 
