@@ -564,16 +564,16 @@ def _check_root(attrs: dict[str, Any], path: str) -> None:
 
 def _check_joint(f: h5py.File, path: str, j: str, version: int) -> None:
     g = f"histograms/{j}"
-    te = _small_finite(_dataset(f, path, f"{g}/torque_edges_nm", 1), path,  # type: ignore[arg-type]
+    te = _small_finite(_dataset(f, path, f"{g}/torque_edges_nm", 1), path,
                        f"{g}/torque_edges_nm")
-    se = _small_finite(_dataset(f, path, f"{g}/speed_edges_rad_s", 1), path,  # type: ignore[arg-type]
+    se = _small_finite(_dataset(f, path, f"{g}/speed_edges_rad_s", 1), path,
                        f"{g}/speed_edges_rad_s")
     for name, e in (("torque_edges_nm", te), ("speed_edges_rad_s", se)):
         if e.size < 2 or not (np.diff(e) > 0).all():
             raise RecordError(path, f"{g}/{name}", "at least two increasing bin edges")
     shape = (te.size - 1, se.size - 1)
     for name in _HIST_SETS:
-        a = _small_finite(_dataset(f, path, f"{g}/{name}", shape=shape), path,  # type: ignore[arg-type]
+        a = _small_finite(_dataset(f, path, f"{g}/{name}", shape=shape), path,
                           f"{g}/{name}")
         if (a < 0).any():
             raise RecordError(path, f"{g}/{name}", "values >= 0")
@@ -606,9 +606,6 @@ def _check_joint(f: h5py.File, path: str, j: str, version: int) -> None:
             raise RecordError(path, f"{sg} attributes power_exponents, torque_power_angle, "
                               "abs_angle_rad", "two lists of equal length of finite numbers "
                               "and a finite number")
-    elif version >= 2:
-        raise RecordError(path, f"{sg} attribute power_exponents", "this attribute (missing; "
-                          "every record of format 2 has it)")
     qg = f"quality/{j}"
     if qg in f:
         for k, v in _read_plain_attrs(f, path, qg).items():

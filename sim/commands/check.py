@@ -11,7 +11,6 @@ is flagged), 2 on bad input (nothing is written then).
 from __future__ import annotations
 
 import argparse
-import math
 import sys
 from pathlib import Path
 
@@ -19,6 +18,7 @@ from sim.checks.drivetrain_check import check_drivetrain, write_disc_profiles
 from sim.checks.reducer import CheckSettings
 from sim.checks.report import exit_code, render_table, to_json
 from sim.core.atomic import output_batch
+from sim.core.config import check_option_number
 from sim.core.errors import InputError
 from sim.core.paths import check_output_dir
 
@@ -49,13 +49,14 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def settings_from_args(args: argparse.Namespace) -> CheckSettings:
-    if not (args.required_life_h > 0 and math.isfinite(args.required_life_h)):
-        raise InputError("--required-life-h", None, "a positive number of hours",
-                         args.required_life_h)
-    if not (args.safety_factor >= 1.0 and math.isfinite(args.safety_factor)):
-        raise InputError("--safety-factor", None, "a number >= 1", args.safety_factor)
+    check_option_number(args.required_life_h, "--required-life-h", 0.0, 1e7,
+                        "a life in hours of use", lo_open=True)
+    check_option_number(args.safety_factor, "--safety-factor", 1.0, 100.0, "a safety factor")
     if not 90.0 <= args.reliability < 100.0:
         raise InputError("--reliability", None, "a percentage in [90, 100)", args.reliability)
+    if args.mission_h is not None:
+        check_option_number(args.mission_h, "--mission-h", 0.0, 1e6, "a mission in hours",
+                            lo_open=True)
     return CheckSettings(args.required_life_h, args.safety_factor, args.reliability)
 
 

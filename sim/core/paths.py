@@ -78,3 +78,18 @@ def check_output_dir(path: str | Path, option: str) -> Path:
         raise InputError(option, None, f"a folder to write into, but {p} is a file")
     _check_folder_chain(p, option, "a folder")
     return p
+
+
+LABEL_PATTERN = re.compile(r"[A-Za-z0-9_][A-Za-z0-9_ .,:()+\-]{0,63}")
+LABEL_RULE = ("a label of at most 64 letters, digits, spaces and _ . , : ( ) + - "
+              "(it reaches tables and plot titles)")
+
+
+def label_problem(text: object) -> str | None:
+    """None if ``text`` is empty or a safe label (:data:`LABEL_PATTERN`), else the rule; for
+    ``Field(check=...)``. Labels from shared files (usage-mix entries, sweep parameters) reach
+    terminal tables, CSV cells and plot titles, so no control characters, no ``$`` (plot
+    mathtext), no leading ``=`` (spreadsheet formulas)."""
+    if text == "" or (isinstance(text, str) and LABEL_PATTERN.fullmatch(text)):
+        return None
+    return LABEL_RULE

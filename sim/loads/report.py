@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from sim.core.errors import InputError
+from sim.core.config import check_option_number
 from sim.loads.damage import (
     BasquinCurve,
     CycleMatrix,
@@ -342,10 +342,17 @@ def loads_report(records: Sequence[str | Path] = (), mix: str | Path | None = No
     """
     for e in exponents:
         parse_exponent(e)
-    if hold_speed_rad_s < 0 or hold_torque_nm < 0:
-        raise InputError("--hold-speed/--hold-torque", None, "numbers >= 0")
+    check_option_number(hold_speed_rad_s, "--hold-speed", 0.0, 1e4, "a joint speed in rad/s")
+    check_option_number(hold_torque_nm, "--hold-torque", 0.0, 1e6, "a torque in N m")
+    for lv in levels_nm or ():
+        check_option_number(lv, "--level", -1e6, 1e6, "a torque level in N m")
+    check_option_number(sn_cutoff_nm, "--sn-cutoff", 0.0, 1e7, "a torque range in N m")
     curve = None
     if sn:
+        check_option_number(sn[0], "--sn RANGE_NM", 0.0, 1e7, "a torque range in N m",
+                            lo_open=True)
+        check_option_number(sn[1], "--sn CYCLES", 0.0, 1e15, "a number of cycles", lo_open=True)
+        check_option_number(sn[2], "--sn K", 1.0, 50.0, "the slope exponent of the S-N line")
         curve = BasquinCurve(sn[0], sn[1], sn[2], sn_cutoff_nm)
     usage = usage_from_inputs(records, mix)
     return duty_loads(usage, joints, exponents, levels_nm, hold_speed_rad_s, hold_torque_nm,
