@@ -637,6 +637,15 @@ def _check_series(f: h5py.File, attrs: dict[str, Any], path: str) -> None:
             ds = _dataset(f, path, name, 1)
             m = ds.shape[0] if m is None else m  # type: ignore[union-attr]
             _dataset(f, path, name, shape=(m,))
+    if "segments/name" in f:
+        from sim.core.paths import LABEL_RULE, label_problem
+
+        ds = f["segments/name"]
+        if not isinstance(ds, h5py.Dataset) or ds.dtype.kind not in "OS" or ds.ndim != 1:
+            raise RecordError(path, "segments/name", "a list of segment names")
+        for i, nm in enumerate(_plain(ds[()])):
+            if label_problem(nm):
+                raise RecordError(path, f"segments/name[{i}]", LABEL_RULE, nm[:100])
     for top in ("events", "segments"):
         if top in f:
             for name in _walk_datasets(f, top, path):

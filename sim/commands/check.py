@@ -49,7 +49,7 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def settings_from_args(args: argparse.Namespace) -> CheckSettings:
-    check_option_number(args.required_life_h, "--required-life-h", 0.0, 1e7,
+    check_option_number(args.required_life_h, "--required-life-h", 0.0, 1e15,
                         "a life in hours of use", lo_open=True)
     check_option_number(args.safety_factor, "--safety-factor", 1.0, 100.0, "a safety factor")
     if not 90.0 <= args.reliability < 100.0:

@@ -45,7 +45,7 @@ def execute(args: argparse.Namespace) -> int:
     from sim.scenario.scenario_file import load_scenario
 
     out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
-    check_output_file(out, "-o")
+    check_output_file(args.output or out, "-o")
     scn = load_scenario(args.scenario, args.overrides)  # bad input fails before any output
     from sim.engine.runner import run
 

@@ -17,6 +17,7 @@ wherever it appears (one place for each fact).
 from __future__ import annotations
 
 import math
+import re
 from fnmatch import fnmatchcase
 
 INT64_MAX = 2**63 - 1
@@ -89,7 +90,7 @@ RANGES: tuple[tuple[str, float, float], ...] = (
 
 def plausible_range(key: str) -> tuple[float, float] | None:
     """``(lowest, highest)`` plausible for the dotted ``key`` (list indices dropped), or None."""
-    base = key.split("[", 1)[0]
+    base = re.sub(r"\[\d+\]", "", key)
     last = base.rsplit(".", 1)[-1]
     for pattern, lo, hi in RANGES:
         if "." in pattern:
@@ -106,7 +107,7 @@ def _inside(v: float, lo: float, hi: float) -> bool:
 
 def unit_slip(key: str, value: float, lo: float, hi: float) -> str:
     """What a value outside ``[lo, hi]`` looks like, if it is a known unit slip, else ''."""
-    name = key.split("[", 1)[0].rsplit(".", 1)[-1]
+    name = re.sub(r"\[\d+\]", "", key).rsplit(".", 1)[-1]
     if name.endswith("_c") and value < -273.15:
         return "it is below absolute zero (-273.15 C)"
     if name.endswith("_c") and _inside(value - 273.15, lo, hi):
