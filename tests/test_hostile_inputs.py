@@ -24,7 +24,7 @@ from hypothesis import strategies as st
 
 from sim.commands.cli import main
 
-from .conftest import MODELS, ROOT, SCENARIOS
+from .conftest import MODELS, SCENARIOS
 
 MODEL_TEXT = (MODELS / "fennec.toml").read_text()
 SCEN_TEXT = (SCENARIOS / "stand.toml").read_text().replace(
