@@ -304,3 +304,20 @@ def test_killed_sweep_leaves_no_process_and_no_temporary_file(tmp_path, how):
     _wait_for(lambda: not _session_processes(proc.pid), 10.0)
     assert _temps(tmp_path / "out") == []
     assert not list((tmp_path / "out").rglob("result.json"))
+
+
+# -- honest outputs -------------------------------------------------------------------------
+def test_allow_failed_outputs_say_the_robot_fell_and_when(tmp_path, capsys):
+    import json
+
+    p = write_synthetic_record(tmp_path / "f.h5", 0.4, 0.001, joints=["fl_knee"],
+                               status="fell",
+                               extra_attrs={"simulated_s": 0.4, "planned_s": 2.0})
+    assert main(["loads", str(p)]) == 2  # refused without the option
+    capsys.readouterr()
+    assert main(["loads", str(p), "--allow-failed", "--json"]) == 0
+    notes = json.loads(capsys.readouterr().out)["notes"]
+    bad = [n for n in notes if "NOT A VALID DUTY CYCLE" in n]
+    assert len(bad) == 1 and "fell" in bad[0] and "t = 0.400 s of the planned 2.000 s" in bad[0]
+    assert main(["loads", str(p), "--allow-failed"]) == 0
+    assert "NOT A VALID DUTY CYCLE" in capsys.readouterr().out

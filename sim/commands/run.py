@@ -59,8 +59,10 @@ def execute(args: argparse.Namespace) -> int:
         for line in screen.flag_lines():
             print(line, file=sys.stderr)
     else:
+        reached = scn.duration_s if result.simulated_s is None else result.simulated_s
         print(f"record: {result.record}  status: {result.status}  "
-              f"mass: {result.total_mass_kg:.2f} kg  simulated: {scn.duration_s:g} s")
+              f"mass: {result.total_mass_kg:.2f} kg  simulated: {reached:.6g} s of "
+              f"{scn.duration_s:g} s planned")
         print(format_table(result))
         print(screen.to_text())
         print(CAUTION)

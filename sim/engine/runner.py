@@ -307,7 +307,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     return RunResult(loop.status, loop.detail, path, _joint_figures(path), eng.total_mass_kg,
                      loop.i_global / elapsed if elapsed > 0 else 0.0, run_figs,
                      [{"name": n, "kind": k, "start_s": a, "end_s": b, **f}
-                      for (n, k, a, b), f in zip(seg_table, seg_figs, strict=True)])
+                      for (n, k, a, b), f in zip(seg_table, seg_figs, strict=True)],
+                     simulated_s=loop.i_global * dt, planned_s=scn.duration_s)
 
 
 def _finish(w: RecordWriter, eng: Engine, loop: _Loop,

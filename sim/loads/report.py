@@ -226,6 +226,7 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
              _teq_note(spectra, exps)]
     if not mix.daily:
         notes.append("Records stand for themselves: 'per day' means one pass of the records.")
+    notes += failed_run_notes([e.path for e in mix.entries])
     levels = {j: (tuple(levels_nm) if levels_nm is not None
                   else tuple(round(f * spectra[j].peak_torque_nm, 6)
                              for f in DEFAULT_LEVEL_SHARES)) for j in names}
@@ -322,6 +323,25 @@ def with_cycle_matrices(report: LoadsReport, bins: int = CYCLE_MATRIX_BINS,
         r = dataclasses.replace(jl.series.rainflow, matrix=combine_matrices(parts[j]))
         joints[j] = dataclasses.replace(jl, series=dataclasses.replace(jl.series, rainflow=r))
     return dataclasses.replace(report, joints=joints)
+
+
+def failed_run_notes(paths: Sequence[str | Path]) -> list[str]:
+    """One note per record whose run did not complete (read with ``--allow-failed``): what
+    happened, when, and how much of the planned run the record covers."""
+    out = []
+    for p in dict.fromkeys(str(x) for x in paths):
+        with open_record(p) as rec:
+            a = rec.attrs
+            if a["status"] == "completed":
+                continue
+            reached = a.get("simulated_s")
+            planned = a.get("planned_s")
+            span = ("" if reached is None else f"; the run reached t = {float(reached):.3f} s"
+                    + ("" if planned is None else f" of the planned {float(planned):.3f} s"))
+            out.append(f"NOT A VALID DUTY CYCLE: {p}: the run {a['status']} "
+                       f"({a.get('status_detail', '')}){span}; its figures describe only the "
+                       "time before that")
+    return out
 
 
 def loads_report(records: Sequence[str | Path] = (), mix: str | Path | None = None,
