@@ -321,3 +321,29 @@ def test_allow_failed_outputs_say_the_robot_fell_and_when(tmp_path, capsys):
     assert len(bad) == 1 and "fell" in bad[0] and "t = 0.400 s of the planned 2.000 s" in bad[0]
     assert main(["loads", str(p), "--allow-failed"]) == 0
     assert "NOT A VALID DUTY CYCLE" in capsys.readouterr().out
+
+
+# -- Dask clusters --------------------------------------------------------------------------
+def test_cluster_addresses_and_the_plain_tcp_warning():
+    from sim.sweeps.cluster import parse_cluster_address, plain_tcp_warning
+
+    assert str(parse_cluster_address("10.0.0.5:8786")) == "tcp://10.0.0.5:8786"
+    assert str(parse_cluster_address("tls://[fd00::5]:8786")) == "tls://[fd00::5]:8786"
+    assert "unencrypted" in plain_tcp_warning(parse_cluster_address("tcp://10.0.0.5:8786"))
+    assert plain_tcp_warning(parse_cluster_address("tls://10.0.0.5:8786")) is None
+    assert plain_tcp_warning(parse_cluster_address("tcp://127.0.0.1:8786")) is None
+    assert plain_tcp_warning(parse_cluster_address("localhost:8786")) is None
+
+
+def test_an_unreachable_scheduler_is_exit_2_and_writes_nothing(tmp_path, capsys):
+    import socket
+
+    with socket.socket() as s:  # a port on this machine that nothing listens on
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    out = tmp_path / "o"
+    assert main(["sweep", str(SCENARIOS / "sweep_ratio.toml"), "-o", str(out), "--cluster",
+                 f"tcp://127.0.0.1:{port}"]) == 2
+    err = capsys.readouterr().err
+    assert "--cluster" in err and "reached" in err
+    assert not out.exists()

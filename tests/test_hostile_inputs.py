@@ -345,6 +345,21 @@ option_case("mission negative", ["--mission-h", "-1"], "--mission-h", "> 0", com
 option_case("mission absurd", ["--mission-h", "1e300"], "--mission-h", "<= 1e+06",
             command="check")
 option_case("workers zero", ["--workers", "0"], "--workers", "at least 1", command="sweep")
+option_case("cluster address malformed", ["--cluster", "tcp//sched"], "--cluster",
+            "scheduler address", command="sweep")
+option_case("cluster port out of range", ["--cluster", "tcp://10.0.0.5:99999"], "--cluster",
+            "scheduler address", command="sweep")
+option_case("cluster tls without files", ["--cluster", "tls://sched.example:8786"],
+            "--cluster", "TLS files", command="sweep")
+option_case("cluster tls file missing", ["--cluster", "tls://sched.example:8786",
+                                         "--tls-ca-file", "/nonexistent/ca.pem", "--tls-cert",
+                                         "/nonexistent/c.pem", "--tls-key", "/nonexistent/k"],
+            "--tls-ca-file", "no such file", command="sweep")
+option_case("tls files with plain tcp", ["--cluster", "tcp://127.0.0.1:8786", "--tls-ca-file",
+                                         str(MODELS / "fennec.toml"), "--tls-cert",
+                                         str(MODELS / "fennec.toml"), "--tls-key",
+                                         str(MODELS / "fennec.toml")],
+            "--cluster", "tls://", command="sweep")
 option_case("unknown option", ["--frobnicate"], "unrecognized arguments")
 option_case("number expected", ["--hold-speed", "fast"], "--hold-speed", "invalid float")
 

@@ -16,7 +16,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from sim.core.errors import GaitloadError, InputError, Interrupted
+from sim.core.errors import InputError, Interrupted
 from sim.sweeps.cases import load_case_result, resolve_cases, run_case, store_case
 from sim.sweeps.ranking import SweepResult, case_result, rank_cases
 from sim.sweeps.spec import Sweep
@@ -127,7 +127,7 @@ def _execute_local(specs: list[dict[str, Any]], out_dir: Path, workers: int,
 
 
 def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shared: bool,
-                  done: Callable[[dict[str, Any]], None]) -> None:
+                  done: Callable[[dict[str, Any]], None], security: Any = None) -> None:
     try:
         from dask.distributed import Client, as_completed
     except ImportError:
@@ -135,9 +135,10 @@ def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shar
                          "'gaitload[cluster]')") from None
     own = not isinstance(cluster, Client)
     try:
-        client = Client(cluster, timeout=10) if own else cluster
-    except OSError as exc:
-        raise GaitloadError(f"cannot reach the Dask scheduler at {cluster}: {exc}") from None
+        client = (Client(str(cluster), timeout=10, security=security) if own else cluster)
+    except (OSError, TimeoutError, ValueError, TypeError) as exc:
+        raise InputError("--cluster", None, "a Dask scheduler that can be reached "
+                         f"({type(exc).__name__}: {exc})", str(cluster)) from None
     try:
         target = str(out_dir) if shared else None
         futs = client.map(run_case, specs, out_dir=target, pure=False)
@@ -156,7 +157,7 @@ def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shar
 
 def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
               cluster: Any = None, shared_output: bool = False,
-              progress: bool = False) -> SweepResult:
+              progress: bool = False, security: Any = None) -> SweepResult:
     """Run the missing cases of ``sweep`` into ``out_dir`` and rank all of them.
 
     ``workers``: local process pool size (default: the CPUs available). ``cluster``: a Dask
@@ -200,7 +201,7 @@ def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
     try:
         if specs:
             if cluster is not None:
-                _execute_dask(specs, out_dir, cluster, shared_output, done)
+                _execute_dask(specs, out_dir, cluster, shared_output, done, security)
             else:
                 _execute_local(specs, out_dir, workers or available_cpus(), done)
     except KeyboardInterrupt:
