@@ -6,6 +6,8 @@ figures, and nothing imports the commands (enforced by tests/test_layering.py):
 
     core      errors, config, atomic,  - error hierarchy, strict TOML reading, atomic output,
               streams                    block-wise streaming statistics
+    parts     drivetrain, ratios,      - the drivetrain file and its motor and reducer parts,
+              motor_constants            read once for the simulation and the checks
     robot     model, urdf, kinematics, - the robot description (pure numpy)
               statics, inertia
     drive     envelope, dynamics,      - actuator torque envelope, engine-side drive dynamics

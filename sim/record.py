@@ -57,7 +57,9 @@ lossless reducer, the reducer output torque (``gearbox_torque_nm``) when motor r
 losses are simulated (root attribute ``load_torque``, naming the series they follow).
 
 Root attributes: format_version, tool_version, status, status_detail, scenario_toml,
-model_toml, time_step_s, sample_period_s, decimation, seed, engine_version, total_mass_kg,
+model_toml, drivetrain_toml (the resolved drivetrain, parts inside), drive_notes (what the
+simulation leaves out of the drivetrain), time_step_s, sample_period_s, decimation, seed,
+engine_version, total_mass_kg,
 joint_names, leg_names, axis_convention, planned_s (the scenario's length). Further groups
 (phases, events, segments) may be added by the runner with :meth:`RecordWriter.append` and
 :meth:`RecordWriter.put`.

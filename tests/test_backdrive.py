@@ -29,6 +29,7 @@ from sim.robot.urdf import build_urdf
 from sim.scenario.segments import stance_angles
 
 from .conftest import MODELS
+from .helpers import drive_overrides
 
 
 def _one_d(m_b: float, m_f: float, m_r: float) -> float:
@@ -47,9 +48,10 @@ def test_one_d_impact_mitigation_example(m_r, xi):
 
 
 def test_reflected_inertia_and_backdrive_torque():
-    m = load_model(MODELS / "fennec.toml", {"actuator.knee.rotor_inertia_kg_m2": 6e-5,
-                                            "actuator.knee.friction_coulomb_nm": 0.4,
-                                            "actuator.knee.efficiency_back": 0.8})
+    # ideal knee reducer (no inertia or losses of its own) on a 6e-5 kg m^2 rotor
+    m = load_model(MODELS / "fennec.toml", drive_overrides({
+        "knee.rotor_inertia_kg_m2": 6e-5, "knee.friction_coulomb_nm": 0.4,
+        "knee.efficiency_back": 0.8}))
     k = joint_metrics(m, accel_rad_s2=100.0)["fl_knee"]
     assert k.reflected_inertia_kg_m2 == pytest.approx(4.86e-3)  # N^2 J_r, N = 9
     assert k.breakaway_torque_nm == 0.4
@@ -86,8 +88,8 @@ def test_leg_imf_is_between_locked_and_free_and_falls_with_ratio():
     without = leg_impact_mitigation(m, q, armature=False)
     for leg in LEGS:
         assert 0.0 < with_rotors[leg] < without[leg] < 1.0
-    xs = [leg_impact_mitigation(load_model(MODELS / "fennec.toml", {
-        "actuator.knee.gear_ratio": n, "actuator.hip.gear_ratio": n}), q)["fl"]
+    xs = [leg_impact_mitigation(load_model(MODELS / "fennec.toml", drive_overrides({
+        "knee.gear_ratio": n, "hip.gear_ratio": n})), q)["fl"]
         for n in (5.0, 10.0, 15.0)]
     assert xs[0] > xs[1] > xs[2]
 
@@ -96,5 +98,7 @@ def test_model_command_reports_backdrive_metrics(capsys):
     assert main(["model", str(MODELS / "fennec.toml"), "--json"]) == 0
     doc = json.loads(capsys.readouterr().out)
     bd = doc["backdrive"]
-    assert bd["joints"]["fl_knee"]["reflected_inertia_kg_m2"] == pytest.approx(81 * 6.5e-5)
+    # by hand from the demo parts: N^2 (J_rotor + J_in) + J_out = 81 (6.5e-5 + 3e-6) + 2e-5
+    assert bd["joints"]["fl_knee"]["reflected_inertia_kg_m2"] == pytest.approx(
+        81 * (6.5e-5 + 3.0e-6) + 2.0e-5, rel=1e-12)
     assert set(bd["impact_mitigation_factor"]) == set(LEGS)

@@ -12,7 +12,8 @@ from sim.commands.cli import main
 
 from .conftest import MODELS, SCENARIOS
 
-MODEL_TEXT = (MODELS / "fennec.toml").read_text()
+MODEL_TEXT = (MODELS / "fennec.toml").read_text().replace(
+    'drivetrain = "drivetrain_demo.toml"', f'drivetrain = "{MODELS / "drivetrain_demo.toml"}"')
 SCEN_TEXT = (SCENARIOS / "stand.toml").read_text().replace(
     'robot = "../models/fennec.toml"', 'robot = "robot.toml"')
 
@@ -45,8 +46,26 @@ CASES = [
      SCEN_TEXT, [], ["robot.toml", "joint_range_rad.knee", "lower < upper"]),
     ("missing actuator kind", MODEL_TEXT.split("[actuator.knee]")[0], SCEN_TEXT, [],
      ["robot.toml", "actuator.knee", "every joint kind"]),
-    ("unknown actuator joint", MODEL_TEXT + "\n[actuator.xx_knee]\ngear_ratio = 5.0\n", SCEN_TEXT,
+    ("unknown actuator joint", MODEL_TEXT + "\n[actuator.xx_knee]\nmass_kg = 5.0\n", SCEN_TEXT,
      [], ["robot.toml", "actuator.xx_knee", "joint name"]),
+    ("a part value in the model", MODEL_TEXT.replace("[actuator.knee]\n",
+                                                     "[actuator.knee]\ngear_ratio = 9.0\n"),
+     SCEN_TEXT, [], ["robot.toml", "actuator.knee.gear_ratio", "moved to the reducer part"]),
+    ("missing drivetrain file", MODEL_TEXT.replace(str(MODELS / "drivetrain_demo.toml"),
+                                                   "nowhere.toml"), SCEN_TEXT, [],
+     ["robot.toml", "drivetrain", "existing drivetrain file"]),
+    ("--set part value out of range", MODEL_TEXT, SCEN_TEXT,
+     ["--set", "robot.parts.knee.reducer.efficiency_forward=1.5"],
+     ["reducer_knee_belt.toml", "efficiency_forward", "<= 1"]),
+    ("--set misspelt part key", MODEL_TEXT, SCEN_TEXT,
+     ["--set", "robot.parts.knee.reducer.efficency_back=0.5"],
+     ["reducer_knee_belt.toml", "efficency_back", "known key"]),
+    ("--set part of no joint", MODEL_TEXT, SCEN_TEXT,
+     ["--set", "robot.parts.elbow.reducer.ratio=5"],
+     ["--set", "robot.parts.elbow.reducer.ratio", "joint kind"]),
+    ("--set self-locking reducer", MODEL_TEXT, SCEN_TEXT,
+     ["--set", "robot.parts.knee.reducer.efficiency_back=0.0"],
+     ["reducer_knee_belt.toml", "efficiency_back", "at least 0.05"]),
     ("malformed TOML", MODEL_TEXT.replace("[body]", "[body"), SCEN_TEXT, [],
      ["robot.toml", "valid TOML"]),
     ("missing robot file", MODEL_TEXT, SCEN_TEXT.replace('"robot.toml"', '"nowhere.toml"'), [],
@@ -67,8 +86,8 @@ CASES = [
     ("--set unknown top key", MODEL_TEXT, SCEN_TEXT, ["--set", "grund.friction=0.5"],
      ["--set", "grund.friction", "scenario key"]),
     ("--set model value out of range", MODEL_TEXT, SCEN_TEXT,
-     ["--set", "robot.actuator.knee.gear_ratio=0.5"],
-     ["robot.toml", "actuator.knee.gear_ratio", ">= 1"]),
+     ["--set", "robot.actuator.knee.mass_kg=-0.5"],
+     ["robot.toml", "actuator.knee.mass_kg", ">= 0"]),
 ]
 
 

@@ -66,6 +66,43 @@ def test_equivalent_load_iso281_table_3():
     assert b.equivalent_radial_load_n(1234.0, 0.0, c0, f0) == 1234.0
 
 
+# ISO 281:2007 Table 3, radial ball bearings, single row deep-groove, normal internal clearance
+# (from memory; the same rows are printed in the bearing makers' catalogues): relative axial
+# load f0 Fa/C0r -> e; for Fa/Fr > e X = 0.56 and Y as below; for Fa/Fr <= e X = 1, Y = 0.
+# Intermediate values by linear interpolation (the table's own note).
+ISO281_TABLE_3 = [(0.172, 0.19, 2.30), (0.345, 0.22, 1.99), (0.689, 0.26, 1.71),
+                  (1.03, 0.28, 1.55), (1.38, 0.30, 1.45), (2.07, 0.34, 1.31),
+                  (3.45, 0.38, 1.15), (5.17, 0.42, 1.04), (6.89, 0.44, 1.00)]
+
+
+@pytest.mark.parametrize(("rel", "e", "y"), ISO281_TABLE_3)
+def test_equivalent_load_every_row_of_iso281_table_3(rel, e, y):
+    c0, f0 = 10000.0, 10.0
+    fa = rel * c0 / f0  # puts f0 Fa / C0r on the row
+    # Fa/Fr just above e: P = 0.56 Fr + Y Fa with the row's Y
+    fr = fa / (e * 1.001)
+    assert b.equivalent_radial_load_n(fr, fa, c0, f0) == pytest.approx(0.56 * fr + y * fa,
+                                                                      rel=1e-12)
+    # Fa/Fr just below e: P = Fr
+    fr = fa / (e * 0.999)
+    assert b.equivalent_radial_load_n(fr, fa, c0, f0) == fr
+
+
+@pytest.mark.parametrize("k", range(len(ISO281_TABLE_3) - 1))
+def test_equivalent_load_interpolates_table_3_between_rows(k):
+    # a third of the way from row k to row k+1, e and Y interpolated by hand
+    (r0, e0, y0), (r1, e1, y1) = ISO281_TABLE_3[k], ISO281_TABLE_3[k + 1]
+    rel = r0 + (r1 - r0) / 3
+    e, y = e0 + (e1 - e0) / 3, y0 + (y1 - y0) / 3
+    c0, f0 = 10000.0, 10.0
+    fa = rel * c0 / f0
+    fr = fa / (e * 1.0005)  # Fa/Fr above the interpolated e, below the next row's
+    assert b.equivalent_radial_load_n(fr, fa, c0, f0) == pytest.approx(0.56 * fr + y * fa,
+                                                                      rel=1e-12)
+    fr = fa / (e * 0.9995)  # below the interpolated e, above the previous row's
+    assert b.equivalent_radial_load_n(fr, fa, c0, f0) == fr
+
+
 def test_static_safety_iso76():
     # ISO 76, radial ball bearing: P0 = max(0.6 Fr + 0.5 Fa, Fr); s0 = C0/P0.
     # C0 = 6550 N, Fr = 3000 N, Fa = 1000 N -> P0 = 3000 N, s0 = 2.18.

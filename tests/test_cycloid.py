@@ -252,6 +252,12 @@ def test_check_reports_forces_under_the_spectrum_peak():
     v = sec.values
     assert v["peak_disc_torque_nm"] == pytest.approx(0.55 * 10.0)  # two discs, common practice
     assert v["peak_pin_force_n"] == pytest.approx(v["peak_pin_force_closed_form_n"], rel=0.05)
+    # and exactly the largest hand pin force over the check's 720 crank angles of a turn
+    # (geometry from first principles in _hand_ring_pin_pressures below)
+    hand = max(f for t in np.linspace(0, 2 * np.pi, 720, endpoint=False)
+               for f, _, _ in _hand_ring_pin_pressures(stage, 5.5, t))
+    assert v["peak_pin_force_n"] == pytest.approx(hand, rel=1e-9)
+    assert v["peak_output_pin_force_n"] == pytest.approx(5.5 / (1.5 * 0.016), rel=1e-9)
     assert v["peak_input_torque_per_disc_nm"] == pytest.approx(5.5 / 11)
     w_in = 10.0 * 11  # largest speed-bin edge times the ratio
     assert v["imbalance_force_n"] == pytest.approx(stage.disc_mass_kg * 0.0012 * w_in**2)
@@ -259,3 +265,158 @@ def test_check_reports_forces_under_the_spectrum_peak():
     names = [lim.name for lim in sec.limits]
     assert names == ["eccentric bearing L10", "eccentric bearing static (ISO 76)",
                      "ring pin / lobe contact (Hertz)", "output pin / hole contact (Hertz)"]
+
+
+# --- contact pressures: hand Hertz at a fixed crank angle -------------------------------------
+# Hertz line contact of two parallel cylinders in Shigley's form (Shigley, Mechanical
+# Engineering Design, sec. 3-19, eqs. 3-73/3-74, from memory): half-width
+# b = sqrt(2F/(pi l) [(1-nu1^2)/E1 + (1-nu2^2)/E2] / (1/d1 + 1/d2)), p_max = 2F/(pi b l); an
+# internal (concave) surface takes a negative diameter. Written out here, not taken from
+# sim.checks.contact.
+
+
+def _shigley_p_max(force_n, length_m, d1_m, d2_m, m1, m2):
+    comp = (1 - m1.poisson_ratio**2) / m1.youngs_modulus_pa \
+        + (1 - m2.poisson_ratio**2) / m2.youngs_modulus_pa
+    b = math.sqrt(2 * force_n / (math.pi * length_m) * comp / (1 / d1_m + 1 / d2_m))
+    return 2 * force_n / (math.pi * b * length_m)
+
+
+def _hand_ring_pin_pressures(stage, disc_torque_nm, theta):
+    """Per ring pin at crank angle theta: (force N, disc contact curvature radius m, p_max Pa).
+
+    Geometry done here from first principles: with the ring fixed the disc turns by
+    -theta/(N-1) about its centre e(cos theta, sin theta), so ring pin k (angle beta_k) sits on
+    the pitch curve x = R cos u - e cos Nu, y = R sin u - e sin Nu at u = beta_k + theta/(N-1).
+    The curvature of that curve, kappa = (x'y'' - y'x'')/|r'|^3 (> 0 convex), gives the disc
+    profile's radius rho - r_pin (the profile is the inward parallel curve at the pin radius).
+    Ideal load sharing (rigid disc, equal contact stiffness, no clearance; Malhotra &
+    Parameswaran 1983): pin k deflects by its lever arm l_k about the disc centre along its
+    contact normal, so F_k = T_c l_k / sum l^2 over the pins pressed (l_k > 0).
+    """
+    n, r, e, rr = (stage.ring_pins, stage.pin_circle_radius_m, stage.eccentricity_m,
+                   0.5 * stage.pin_diameter_m)
+    alpha = -theta / (n - 1)
+    rot = np.array([[math.cos(alpha), -math.sin(alpha)], [math.sin(alpha), math.cos(alpha)]])
+    centre = e * np.array([math.cos(theta), math.sin(theta)])
+    lever, rho_disc = [], []
+    for k in range(n):
+        beta = 2 * math.pi * k / n
+        u = beta + theta / (n - 1)
+        xp, yp = -r * math.sin(u) + e * n * math.sin(n * u), r * math.cos(u) - e * n * math.cos(n * u)
+        xpp = -r * math.cos(u) + e * n * n * math.cos(n * u)
+        ypp = -r * math.sin(u) + e * n * n * math.sin(n * u)
+        kappa = (xp * ypp - yp * xpp) / (xp * xp + yp * yp) ** 1.5
+        rho_disc.append(1 / kappa - rr)
+        t = rot @ np.array([xp, yp])
+        normal = np.array([t[1], -t[0]]) / math.hypot(*t)  # outward normal of the disc
+        d = r * np.array([math.cos(beta), math.sin(beta)]) - centre
+        lever.append(d[0] * normal[1] - d[1] * normal[0])
+    lever_a = np.array(lever)
+    pressed = lever_a > 0
+    force = np.where(pressed, disc_torque_nm * lever_a / float((lever_a[pressed] ** 2).sum()), 0)
+    out = []
+    for f, rho in zip(force, rho_disc, strict=True):
+        p = _shigley_p_max(f, stage.disc_thickness_m, 2 * rr, 2 * rho, stage.pin_material,
+                           stage.disc_material) if f > 0 else 0.0
+        out.append((float(f), rho, p))
+    return out
+
+
+@pytest.mark.parametrize("theta", [0.1, 0.3])
+def test_ring_pin_lobe_pressure_by_hand_at_a_fixed_crank_angle(theta, monkeypatch):
+    # the check's ring-pin pressure at one crank angle is the largest hand pressure of the
+    # pressed pins; the pressed pins include concave parts of the profile (rho < 0), where
+    # the sign of the curvature decides the pressure
+    stage = c.cycloid_from_table(part_table(), "hip.toml")
+    tc = 5.0
+    pins = _hand_ring_pin_pressures(stage, tc, theta)
+    assert any(f > 0 and rho < 0 for f, rho, _ in pins)  # a concave contact is loaded
+    k_max = max(range(len(pins)), key=lambda k: pins[k][2])
+    f, rho, p_hand = pins[k_max]
+    assert rho > 0  # the governing pin presses on a convex lobe flank
+    monkeypatch.setattr(c.CycloidStage, "_crank_angles", lambda self, steps=16:
+                        np.array([theta]))
+    assert stage.ring_contact_pressure_pa(tc) == pytest.approx(p_hand, rel=1e-9)
+    # the pin force behind it, from the project's force analysis, is the hand force too
+    assert g.ring_pin_forces_n(stage.ring_pins, stage.pin_circle_radius_m,
+                               stage.eccentricity_m, tc, theta)[k_max] == pytest.approx(f, rel=1e-9)
+
+
+@pytest.mark.parametrize("theta", [0.1, 0.3])
+def test_each_pressed_ring_pin_has_its_hand_pressure(theta, monkeypatch):
+    # pin by pin, convex and concave contacts alike: the check's force analysis is narrowed
+    # to one pin at a time (the others unloaded), so its pressure is that pin's alone
+    stage = c.cycloid_from_table(part_table(), "hip.toml")
+    tc = 5.0
+    pins = _hand_ring_pin_pressures(stage, tc, theta)
+    monkeypatch.setattr(c.CycloidStage, "_crank_angles", lambda self, steps=16:
+                        np.array([theta]))
+    full = g.ring_pin_forces_n
+    concave = 0
+    for k, (f, rho, p_hand) in enumerate(pins):
+        if f == 0:
+            continue
+        concave += rho < 0
+        monkeypatch.setattr(c, "ring_pin_forces_n", lambda *a, k=k: np.where(
+            np.arange(stage.ring_pins) == k, full(*a), 0.0))
+        assert stage.ring_contact_pressure_pa(tc) == pytest.approx(p_hand, rel=1e-9), k
+    assert concave >= 1
+
+
+def test_ring_pin_pressure_over_the_pitch_is_the_hand_maximum():
+    # over the check's crank angles (one pin pitch) the reported pressure is the largest hand
+    # pressure, and p grows as sqrt(T) (Hertz: p^2 ~ F)
+    stage = c.cycloid_from_table(part_table(), "hip.toml")
+    thetas = np.linspace(0, 2 * np.pi / stage.ring_pins, 16, endpoint=False)
+    hand = max(p for t in thetas for _, _, p in _hand_ring_pin_pressures(stage, 5.0, t))
+    assert stage.ring_contact_pressure_pa(5.0) == pytest.approx(hand, rel=1e-9)
+    assert stage.ring_contact_pressure_pa(20.0) == pytest.approx(2 * hand, rel=1e-9)
+
+
+def test_output_pin_hole_pressure_by_hand():
+    # output pin j = 0 at psi = 90 deg from the eccentric direction (crank angle -90 deg)
+    # carries the largest force of a turn: Q = T_c R_w sin(psi_0) / sum (R_w sin psi)^2 over
+    # the pins pressed (sin psi > 0); six pins give sum sin^2 = 1.5 at every crank angle, so
+    # Q = T_c/(1.5 R_w). The pin (convex, d_pin) sits in a hole (concave, d_pin + 2e).
+    stage = c.cycloid_from_table(part_table(), "hip.toml")
+    tc, rw, nw = 5.0, stage.output_pin_circle_radius_m, stage.output_pins
+    psi = 2 * np.pi * np.arange(nw) / nw + np.pi / 2
+    s = np.sin(psi)
+    q = tc * rw * s[0] / float(((rw * s[s > 1e-12]) ** 2).sum())
+    assert q == pytest.approx(tc / (1.5 * rw), rel=1e-12)
+    d_pin = stage.output_pin_diameter_m
+    d_hole = d_pin + 2 * stage.eccentricity_m
+    p_hand = _shigley_p_max(q, stage.disc_thickness_m, d_pin, -d_hole,
+                            stage.output_pin_material, stage.disc_material)
+    assert stage.output_contact_pressure_pa(tc) == pytest.approx(p_hand, rel=1e-9)
+    # the hole conforms to the pin: taken as convex it would press over twice as hard
+    assert 2 * p_hand < _shigley_p_max(q, stage.disc_thickness_m, d_pin, d_hole,
+                                       stage.output_pin_material, stage.disc_material)
+
+
+def test_contact_limits_of_the_check_carry_the_hand_pressures():
+    # through the whole check: the limits' pressures at the spectrum peak equal the hand
+    # values, and the torque utilisation is (p / p_allow)^2 (p ~ sqrt T)
+    from sim.checks.reducer import CheckSettings, JointDuty
+    from sim.loads.spectra import JointSpectrum
+    stage = c.cycloid_from_table(part_table(), "hip.toml")
+    spec = JointSpectrum("fl_hip", np.array([9.0, 11.0]), np.array([-10.0, 10.0]),
+                         np.array([[3600.0]]), np.array([[3600 * 2.0 / (2 * np.pi)]]), 3600.0,
+                         10.0)
+    lims = {lim.name: lim for lim in stage.limits(JointDuty(spec), CheckSettings())}
+    tc = 0.55 * 10.0  # two discs, most loaded disc share (common practice)
+    thetas = np.linspace(0, 2 * np.pi / stage.ring_pins, 16, endpoint=False)
+    ring = max(p for t in thetas for _, _, p in _hand_ring_pin_pressures(stage, tc, t))
+    lim = lims["ring pin / lobe contact (Hertz)"]
+    assert lim.detail["max_pressure_pa"] == pytest.approx(ring, rel=1e-9)
+    sf = CheckSettings().safety_factor
+    allow = min(stage.disc_material.contact_allowable_pa,
+                stage.pin_material.contact_allowable_pa) / sf
+    assert lim.utilisation == pytest.approx((ring / allow) ** 2, rel=1e-9)
+    q = tc / (1.5 * stage.output_pin_circle_radius_m)
+    d_pin = stage.output_pin_diameter_m
+    out = _shigley_p_max(q, stage.disc_thickness_m, d_pin, -(d_pin + 2 * stage.eccentricity_m),
+                         stage.output_pin_material, stage.disc_material)
+    assert lims["output pin / hole contact (Hertz)"].detail["max_pressure_pa"] == \
+        pytest.approx(out, rel=1e-9)

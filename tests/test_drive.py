@@ -18,7 +18,7 @@ from sim.drive.dynamics import DriveOptions, Drivetrain, attach_rotor, loss_torq
 from sim.engine.runner import JOINT_INDICES, pb
 from sim.robot.model import load_model
 from sim.robot.urdf import build_urdf, rotor_joint_name
-from tests.helpers import load_test_robot
+from tests.helpers import drive_overrides, load_test_robot
 
 from .conftest import MODELS
 
@@ -84,7 +84,8 @@ def test_pendulum_with_geared_rotor_has_inertia_j_plus_n2_jr(world, j_rotor, rat
 # --- the full robot ---------------------------------------------------------------------------
 
 def _robot(world, mode: str, overrides: dict | None = None, gravity: bool = False):
-    model = load_model(MODELS / "fennec.toml", overrides)
+    # ideal reducers unless a test gives a loss (the demo parts have their own, tested elsewhere)
+    model = load_model(MODELS / "fennec.toml", drive_overrides(overrides or {}))
     r = load_test_robot(pb, world, build_urdf(model, rotors=mode))
     if gravity:
         pb.setGravity(0, 0, -9.80665, physicsClientId=world)
@@ -108,7 +109,7 @@ def _shank_inertia_about_knee(model) -> float:
             + ft.mass_kg * l2 ** 2)
 
 
-LOCK = {"actuator.abad.friction_coulomb_nm": 200.0, "actuator.hip.friction_coulomb_nm": 200.0}
+LOCK = {"abad.friction_coulomb_nm": 200.0, "hip.friction_coulomb_nm": 200.0}
 
 
 @pytest.mark.parametrize("mode", ["exact", "approximate"])
@@ -193,7 +194,7 @@ def test_full_robot_torques_match_pinocchio_model_with_rotor_joints(world):
 
 # --- friction and efficiency -------------------------------------------------------------------
 
-KNEE_C = {"actuator.knee.friction_coulomb_nm": 0.5, **LOCK}
+KNEE_C = {"knee.friction_coulomb_nm": 0.5, **LOCK}
 
 
 def test_knee_below_coulomb_friction_stays_at_rest(world):
@@ -240,7 +241,7 @@ def _knee_step(world, r, drv, speed_rad_s, torque_nm):
     return tau, qd0, qd
 
 def test_forward_efficiency_scales_the_delivered_torque(world):
-    model, r, drv = _robot(world, "off", {**LOCK, "actuator.knee.efficiency_forward": 0.8})
+    model, r, drv = _robot(world, "off", {**LOCK, "knee.efficiency_forward": 0.8})
     tau, qd0, qd = _knee_step(world, r, drv, 1.0, 1.2)  # driving: torque and speed agree
     j = _shank_inertia_about_knee(model)
     # power-flow efficiency model: output torque = eta_f tau when the motor drives
@@ -249,7 +250,7 @@ def test_forward_efficiency_scales_the_delivered_torque(world):
 
 
 def test_back_driving_needs_torque_over_back_efficiency(world):
-    model, r, drv = _robot(world, "off", {**LOCK, "actuator.knee.efficiency_back": 0.5})
+    model, r, drv = _robot(world, "off", {**LOCK, "knee.efficiency_back": 0.5})
     _, _, qd = _knee_step(world, r, drv, -1.0, 0.6)  # the load drives against the motor
     j = _shank_inertia_about_knee(model)
     # back-driven: the output sees tau / eta_b (it must supply that to turn the motor)
@@ -282,4 +283,4 @@ def test_misspelt_actuator_loss_key_is_rejected():
     from sim.core.errors import InputError
 
     with pytest.raises(InputError, match="efficency_back"):
-        load_model(MODELS / "fennec.toml", {"actuator.knee.efficency_back": 0.8})
+        load_model(MODELS / "fennec.toml", {"parts.knee.reducer.efficency_back": 0.8})

@@ -46,7 +46,7 @@ def test_demo_drivetrain_matches_the_demo_ratios():
     assert dt.joints["fl_abad"].reducer.ratio == 7.0
     assert dt.joints["fl_hip"].reducer.ratio == 11.0
     assert dt.joints["fl_knee"].reducer.ratio == pytest.approx(9.0)
-    assert dt.joints["fl_knee"].motor_path.name == "motor_demo.toml"
+    assert Path(dt.joints["fl_knee"].motor_source).name == "motor_demo.toml"
     assert dt.supply is not None and dt.supply["bus_voltage_v"] == 24.0
     # one part object shared by every joint that names the same file
     assert dt.joints["fl_knee"].reducer is dt.joints["hr_knee"].reducer
@@ -60,7 +60,7 @@ def test_every_demo_part_says_it_is_invented():
 def test_later_entries_win_and_motor_paths(tmp_path):
     write(tmp_path, RATED, "r1.toml")
     write(tmp_path, RATED.replace("ratio = 10.0", "ratio = 12.0"), "r2.toml")
-    write(tmp_path, "# motor\n", "m.toml")
+    write(tmp_path, (PARTS / "motor_demo.toml").read_text(), "m.toml")
     dt = load_drivetrain(write(tmp_path, """
 [[joint]]
 match = "*"
@@ -71,14 +71,19 @@ reducer = "r2.toml"
 [[joint]]
 match = "*_knee"
 motor = "m.toml"
+current_limit_a = 20.0
 [supply]
-pack_voltage_v = 24.0
+bus_voltage_v = 24.0
+current_limit_a = 30.0
+inverter_efficiency = 0.95
+regeneration_absorbed = true
 """))
     assert dt.joints["fl_knee"].reducer.ratio == 12.0
     assert dt.joints["fr_knee"].reducer.ratio == 10.0
-    assert dt.joints["fl_knee"].motor_path == (tmp_path / "m.toml").resolve()
-    assert dt.joints["fl_hip"].motor_path is None
-    assert dt.supply == {"pack_voltage_v": 24.0}
+    assert Path(dt.joints["fl_knee"].motor_source).resolve() == (tmp_path / "m.toml").resolve()
+    assert dt.joints["fl_hip"].motor is None and dt.joints["fl_hip"].motor_source is None
+    assert dt.joints["fl_knee"].current_limit_a == 20.0  # the joint's own limit
+    assert dt.supply is not None and dt.supply["bus_voltage_v"] == 24.0
 
 
 def test_unassigned_joints_are_listed(tmp_path):

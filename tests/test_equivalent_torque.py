@@ -8,6 +8,7 @@ import pytest
 
 from sim import JOINT_NAMES
 from sim.loads.mix import mix_of_records
+from sim.loads.series import load_series_name
 from sim.loads.spectra import (
     equivalent_torque_bounds,
     equivalent_torque_detail,
@@ -24,7 +25,7 @@ from .synthetic import write_synthetic_record
 def _direct(rec, joint, p):
     """Palmgren's mean over the every-step series: [sum |T|^p |w| dt / sum |w| dt]^(1/p)
     (Harris & Kotzalas, Rolling Bearing Analysis; dt cancels)."""
-    t = np.abs(rec.read(f"joints/{joint}/torque_nm"))
+    t = np.abs(rec.read(load_series_name(rec, joint)))  # the load torque series
     w = np.abs(rec.read(f"joints/{joint}/speed_rad_s"))
     return float(((t ** p * w).sum() / w.sum()) ** (1.0 / p))
 
@@ -45,7 +46,7 @@ def test_a_mix_adds_the_power_sums_with_the_weights(trot_records):
     t, w = [], []
     for path in recs:
         with open_record(path) as rec:
-            t.append(np.abs(rec.read("joints/fl_knee/torque_nm")))
+            t.append(np.abs(rec.read(load_series_name(rec, "fl_knee"))))
             w.append(np.abs(rec.read("joints/fl_knee/speed_rad_s")))
     tt, ww = np.concatenate(t), np.concatenate(w)
     ref = ((tt ** 3 * ww).sum() / ww.sum()) ** (1 / 3)
@@ -57,7 +58,7 @@ def test_the_histogram_route_is_low_and_within_its_bound(trot_records, tmp_path,
     # the same every-step series binned coarsely (a synthetic record through the run's writer)
     with open_record(trot_records["dec1"]) as rec:
         dt = float(rec.attrs["time_step_s"])
-        tau = {j: rec.read(f"joints/{j}/torque_nm") for j in JOINT_NAMES}
+        tau = {j: rec.read(load_series_name(rec, j)) for j in JOINT_NAMES}
         spd = {j: rec.read(f"joints/{j}/speed_rad_s") for j in JOINT_NAMES}
         peak = max(float(np.abs(x).max()) for x in tau.values()) * 1.0001
     n = len(tau[JOINT_NAMES[0]])

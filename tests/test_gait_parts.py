@@ -48,7 +48,9 @@ def test_solver_ik_fk_round_trip_and_jacobian_speeds(kin, qs, vs):
 
 
 def test_solver_static_torques_match_the_checked_statics(kin):
-    # LegKinematics.static_torques is checked against pinocchio RNEA in test_stand_statics.py
+    # the solver's fused statics equal LegKinematics.static_torques; that one is checked
+    # against pinocchio (generalized gravity and contact Jacobians) at given angles, gravity
+    # and foot forces in test_stand_statics.py::test_stance_feed_forward_matches_pinocchio
     rng = np.random.default_rng(3)
     q = np.column_stack([rng.uniform(-.4, .4, 4), rng.uniform(0.2, 1.2, 4),
                          -rng.uniform(0.8, 2.2, 4)])

@@ -45,7 +45,9 @@ CASES = {
 
 def _trot(tmp_path_factory, name: str):
     over = [f"segment.1.duration_s={TROT_S}", f"record.start_s={START_S}",
-            "record.decimation=5", *CASES[name]]
+            # every step: the mean of a spiky contact force sampled every 5th step is off by
+            # a few per cent (measured 3.3 % on the slope), more than the Newton check allows
+            "record.decimation=1", *CASES[name]]
     scn = load_scenario(SCENARIOS / "trot.toml", over)
     out = tmp_path_factory.mktemp(f"trot_{name}") / "trot.h5"
     return scn, run(scn, out)
@@ -122,24 +124,55 @@ def test_stand_up_completes_in_the_stand_scenarios_stance(stand_up):
     assert np.all(q_start[2::3] < -2.5)
 
 
-def test_walk_completes_one_foot_at_a_time(tmp_path):
+def _touchdown_lags_s(t: np.ndarray, plan: np.ndarray, contact: np.ndarray) -> np.ndarray:
+    """For each planned touchdown (plan 0 -> 1), the time to the nearest measured touchdown
+    (contact 0 -> 1) within half a second, s (positive: the foot landed late)."""
+    planned = t[1:][(plan[1:] > 0.5) & (plan[:-1] < 0.5)]
+    measured = t[1:][(contact[1:] > 0.5) & (contact[:-1] < 0.5)]
+    lags = []
+    for tp in planned:
+        near = measured[np.abs(measured - tp) < 0.5]
+        if len(near):
+            lags.append(near[np.argmin(np.abs(near - tp))] - tp)
+    return np.array(lags)
+
+
+WALK_DUTY_TOL = 0.05  # contact duty within 0.05 of the plan, as the trot's (stated bound)
+WALK_LAG_S = 0.03  # mean touchdown within 30 ms of the plan (stated bound, 4 % of a cycle)
+
+
+@pytest.mark.parametrize("extra", [[], ["payload.mass_kg=4.638"], ["ground.slope_rad=0.1"]],
+                         ids=["flat", "payload", "slope"])
+def test_walk_feet_do_what_the_walk_plans(tmp_path, extra):
+    """Regression: the front feet used to land 130-240 ms late (contact duty 0.54-0.61
+    against 0.8 planned): the attitude and height feedback lifted a landing foot, and the
+    static body shift rocked the body. Every foot now keeps its planned contact duty and
+    lands when planned, one touchdown per cycle."""
     scn = load_scenario(SCENARIOS / "walk.toml", ["segment.1.duration_s=6.5",
-                                                  "record.decimation=5", "record.start_s=2.5"])
+                                                  "record.decimation=5", "record.start_s=2.5",
+                                                  *extra])
     res = run(scn, tmp_path / "walk.h5")
     assert res.status == "completed", res.detail
     seg = res.segments[1]
     assert seg["mean_forward_speed_m_s"] == pytest.approx(0.25, rel=SPEED_TOL)
+    legs = ("fl", "fr", "hl", "hr")
     with open_record(res.record) as rec:
-        plan = np.stack([rec.read(f"feet/{leg}/phase_plan") for leg in ("fl", "fr", "hl", "hr")])
-        duty = [float(rec.read(f"feet/{leg}/contact").mean()) for leg in ("fl", "fr", "hl",
-                                                                           "hr")]
+        t = rec.read("time_s")
+        plan = np.stack([rec.read(f"feet/{leg}/phase_plan") for leg in legs])
+        contact = np.stack([rec.read(f"feet/{leg}/contact") for leg in legs]).astype(float)
+        touchdowns = [len(rec.read(f"events/touchdown/{leg}")) for leg in legs]
+    n_cycles = (t[-1] - t[0]) / scn.segments[1]["step_period_s"]
     # at most one foot in the air by plan (duty 0.8 > 0.75), so three or four feet carry it
     assert plan.sum(axis=0).min() >= 3
-    np.testing.assert_allclose(plan.mean(axis=1), 0.8, atol=0.03)  # 5.6 cycles recorded
-    # the hind feet keep their planned duty; the lightly loaded front feet lose contact for
-    # part of their stance (see docs/gaits.md), so only a lower bound is checked for them
-    np.testing.assert_allclose(duty[2:], 0.8, atol=0.05)
-    assert min(duty[:2]) > 0.5
+    np.testing.assert_allclose(plan.mean(axis=1), 0.8, atol=0.03)  # 5 cycles recorded
+    for k, leg in enumerate(legs):
+        duty = float(contact[k].mean())
+        assert duty == pytest.approx(float(plan[k].mean()), abs=WALK_DUTY_TOL), (leg, duty)
+        lags = _touchdown_lags_s(t, plan[k], contact[k])
+        assert len(lags) >= int(n_cycles) - 1, leg
+        assert abs(float(lags.mean())) < WALK_LAG_S, (leg, lags)
+        # no bouncing: about one touchdown per cycle
+        assert touchdowns[k] <= 1.4 * n_cycles + 1, (leg, touchdowns[k])
 
 
 def test_sit_down_ends_lying(tmp_path):

@@ -15,11 +15,38 @@ LBF = 4.4482216152605
 PSI = 6894.757293168
 
 
-@pytest.mark.parametrize(("z", "y"), [(12, 0.245), (16, 0.296), (20, 0.322), (30, 0.359),
-                                      (100, 0.447), (400, 0.480), (10000, 0.485)])
-def test_form_factor_table_14_2(z, y):
-    # Shigley Table 14-2, 20 deg full depth (from memory, checked against published reproductions)
+# Shigley, Mechanical Engineering Design, Table 14-2 "Values of the Lewis Form Factor Y (These
+# Values Are for a Normal Pressure Angle of 20 deg, Full-Depth Teeth, and a Diametral Pitch of
+# Unity in the Plane of Rotation)": every row as printed (from memory, checked row by row
+# against several independent public reproductions of the table), and the rack.
+SHIGLEY_TABLE_14_2 = {12: 0.245, 13: 0.261, 14: 0.277, 15: 0.290, 16: 0.296, 17: 0.303,
+                      18: 0.309, 19: 0.314, 20: 0.322, 21: 0.328, 22: 0.331, 24: 0.337,
+                      26: 0.346, 28: 0.353, 30: 0.359, 34: 0.371, 38: 0.384, 43: 0.397,
+                      50: 0.409, 60: 0.422, 75: 0.435, 100: 0.447, 150: 0.460, 300: 0.472,
+                      400: 0.480}
+SHIGLEY_RACK_Y = 0.485
+
+
+@pytest.mark.parametrize(("z", "y"), sorted(SHIGLEY_TABLE_14_2.items()))
+def test_form_factor_every_row_of_table_14_2(z, y):
     assert g.lewis_form_factor(z) == pytest.approx(y, abs=1e-12)
+
+
+def test_form_factor_rack_beyond_the_table():
+    assert g.lewis_form_factor(401) == SHIGLEY_RACK_Y
+    assert g.lewis_form_factor(10000) == SHIGLEY_RACK_Y
+
+
+@pytest.mark.parametrize("z", [23, 25, 27, 29, 32, 36, 40, 45, 55, 70, 90, 120, 200, 350])
+def test_form_factor_interpolates_linearly_between_printed_rows(z):
+    # linear interpolation in the tooth count between the neighbouring printed rows, as
+    # Shigley recommends for counts the table does not list (hand interpolation here)
+    rows = sorted(SHIGLEY_TABLE_14_2)
+    lo = max(r for r in rows if r < z)
+    hi = min(r for r in rows if r > z)
+    ylo, yhi = SHIGLEY_TABLE_14_2[lo], SHIGLEY_TABLE_14_2[hi]
+    want = ylo + (yhi - ylo) * (z - lo) / (hi - lo)
+    assert g.lewis_form_factor(z) == pytest.approx(want, abs=1e-12)
 
 
 def test_form_factor_interpolates_between_rows():

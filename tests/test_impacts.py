@@ -155,7 +155,7 @@ def test_trip_is_recorded_and_raises_the_peak_leg_torques(tmp_path):
 
 def test_a_trip_that_throws_the_robot_is_recorded_as_fell(tmp_path):
     # common practice: an outcome is reported, never hidden; a long hold at 1 m/s topples it
-    scn, res = _run(tmp_path, "trip", ["segment.1.speed_m_s=1.0", "trip.0.duration_s=0.3",
+    scn, res = _run(tmp_path, "trip", ["segment.1.speed_m_s=1.0", "trip.0.duration_s=0.5",
                                        "record.decimation=5"])
     assert res.status == "fell", res.detail
     assert "tilt" in res.detail or "height" in res.detail

@@ -17,7 +17,7 @@ from pathlib import Path
 
 from .conftest import ROOT
 
-STAGES = ("core", "robot", "drive", "scenario", "record", "engine", "loads", "checks",
+STAGES = ("core", "parts", "robot", "drive", "scenario", "record", "engine", "loads", "checks",
           "sweeps", "figures", "commands")
 
 # Known exceptions, each with its reason: {(importer path, imported module): why}. The list

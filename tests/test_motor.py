@@ -298,7 +298,24 @@ def test_usage_mix_of_pairs_weights_rms(tmp_path: Path):
         check_motors([(a, 0.0)], {"fl_knee": (m, 1.0, 1.0, 1.0)}, supply())
 
 
-def test_plots_written(tmp_path: Path):
+def _capture_figures(monkeypatch) -> list:
+    """Keep every figure the figure modules save (they still write their PNG files)."""
+    from sim.figures import common
+
+    figs: list = []
+    real = common.save_figure_atomic
+
+    def keep(fig, path, **kw):
+        figs.append(fig)
+        return real(fig, path, **kw)
+
+    monkeypatch.setattr(common, "save_figure_atomic", keep)
+    return figs
+
+
+def test_plots_written_and_show_the_checked_numbers(tmp_path: Path, monkeypatch):
+    from matplotlib.image import imread
+
     from sim.figures.motor import plot_all
 
     p = write_synthetic_record(tmp_path / "r.h5", 0.5, 0.001, joints=list(JOINT_NAMES[:3]),
@@ -306,9 +323,144 @@ def test_plots_written(tmp_path: Path):
                                speed_rad_s={j: (lambda t: 5 * np.cos(8 * t)) for j in JOINT_NAMES})
     m = load_motor_part(DEMO)
     drives = {j: (m, 9.0, 0.9, 0.85) for j in JOINT_NAMES[:3]}
-    rep = check_motors(p, drives, supply(current_limit_a=30.0))
+    sup = supply(current_limit_a=30.0)
+    rep = check_motors(p, drives, sup)
+    figs = _capture_figures(monkeypatch)
     out = plot_all(rep, tmp_path / "fig")
-    assert len(out) == 5
-    for f in out:
-        assert f.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert [f.name for f in out] == [*(f"motor_envelope_{j}.png" for j in JOINT_NAMES[:3]),
+                                     "winding_temperature.png", "bus_current.png"]
     assert not list((tmp_path / "fig").glob(".*tmp*"))
+    for f in out:  # real images with something drawn on them
+        img = imread(f)
+        assert img.shape[0] > 300 and img.shape[1] > 400
+        assert img[..., :3].std() > 0.05
+    summ = rep.to_json()["joints"]
+    j0 = JOINT_NAMES[0]
+    # envelope figure: the 20 C envelope is the hand formula at the bus voltage and the
+    # current limit (see _hand_envelope), and the density holds the record's 0.5 s once
+    ax = figs[0].axes[0]
+    lines = [ln for ln in ax.get_lines() if ln.get_linestyle() == "-"]
+    w, hi = lines[0].get_xdata(), lines[0].get_ydata()
+    k = m.back_emf_v_s_per_rad
+    _, hi_h = _hand_envelope(k, float(m.line_resistance_ohm(20.0)), 24.0, k * 30.0, w)
+    np.testing.assert_allclose(hi, hi_h, rtol=1e-12)
+    assert float(np.nansum(ax.collections[0].get_array())) == pytest.approx(0.5, rel=1e-9)
+    # winding figure: one line per joint peaking at the reported winding peak
+    lines = figs[3].axes[0].get_lines()
+    peaks = {ln.get_label(): float(np.max(ln.get_ydata())) for ln in lines
+             if not ln.get_label().startswith("_")}
+    assert set(peaks) == set(JOINT_NAMES[:3])
+    for j in JOINT_NAMES[:3]:
+        assert peaks[j] == pytest.approx(summ[j]["winding_peak_c"], rel=1e-9)
+    # bus figure: block means over the record give the mean battery current
+    step = next(ln for ln in figs[4].axes[0].get_lines() if ln.get_label() == "mean")
+    t_b, i_b = step.get_xdata(), step.get_ydata()
+    widths = np.diff(np.append(t_b, 0.5))
+    assert float((i_b * widths).sum() / 0.5) == pytest.approx(
+        rep.to_json()["supply"]["mean_current_a"], rel=1e-6)
+    assert j0 in figs[0].axes[0].get_title()
+
+
+# -- the check's envelope against the hand formula and the simulator's clamp ------------------
+# Steady-state limits of a DC-equivalent PM motor, written out here (Hughes & Drury, Electric
+# Motors and Drives, brushless DC drive equations; from memory): V = R_LL I + k w, |V| <= V_max,
+# |I| <= I_max, T = k I, so T_hi = min(k I_max, k (V - k w)/R_LL) and
+# T_lo = max(-k I_max, k (-V - k w)/R_LL); k = 60/(2 pi kV) for kV per volt of line-to-line
+# peak (trade definition).
+
+
+def _hand_envelope(k, r_ll, v, t_i, w):
+    w = np.asarray(w, float)
+    return (np.maximum(-t_i, k * (-v - k * w) / r_ll), np.minimum(t_i, k * (v - k * w) / r_ll))
+
+
+def test_check_envelope_equals_hand_and_simulator_envelope_on_a_grid():
+    # the motor check's envelope (motor_duty.envelope_nm_bank, fed per sample with the sagging
+    # line voltage and the hot resistance), the part's envelope_nm and the simulator's clamp
+    # (sim.drive.envelope, joint side) are one envelope: compared on a speed grid over +-1.3x
+    # the no-load speed, through the voltage-limited band between corner and no-load speed
+    from sim.checks.motor_duty import Drive, MotorBank, envelope_nm_bank
+    from sim.drive.envelope import Envelope
+    from sim.robot.model import Actuator
+
+    kv, r_ph, v, i_max, n = 100.0, 0.1, 24.0, 20.0, 10.0
+    k = 60.0 / (2.0 * math.pi * kv)
+    m = make_motor(kv=kv, r_ph=r_ph)
+    act = Actuator(gear_ratio=n, rotor_inertia_kg_m2=0.0, torque_constant_nm_a=k,
+                   current_limit_a=i_max, phase_resistance_ohm=r_ph, bus_voltage_v=v,
+                   mass_kg=0.5, housing_radius_m=0.04, housing_length_m=0.04)
+    w0 = v / k
+    corner = (v - i_max * 2 * r_ph) / k
+    w_m = np.linspace(-1.3 * w0, 1.3 * w0, 521)
+    assert np.sum((np.abs(w_m) > corner) & (np.abs(w_m) < w0)) > 50  # voltage-limited points
+    lo_h, hi_h = _hand_envelope(k, 2 * r_ph, v, k * i_max, w_m)
+    band = hi_h >= lo_h  # empty far beyond the no-load speed (back-EMF beats the current limit)
+    assert band.sum() > 300 and (~band).sum() > 50
+    bank = MotorBank({"fl_knee": Drive(m, n, 1.0, 1.0)}, ambient_c=20.0)
+    lo_b, hi_b = envelope_nm_bank(bank, w_m[None, :], np.full((1, w_m.size), v),
+                                  np.array([[k * i_max]]), bank.r20)
+    np.testing.assert_allclose(hi_b[0], hi_h, rtol=1e-12, atol=1e-12)
+    np.testing.assert_allclose(lo_b[0], lo_h, rtol=1e-12, atol=1e-12)
+    lo_p, hi_p = envelope_nm(m, w_m, v, k * i_max)
+    np.testing.assert_allclose(hi_p, hi_h, rtol=1e-12, atol=1e-12)
+    np.testing.assert_allclose(lo_p, lo_h, rtol=1e-12, atol=1e-12)
+    lo_s, hi_s = Envelope.of(act).limits(w_m / n)  # joint side: tau = N T at w = w_m / N
+    np.testing.assert_allclose(hi_s[band] / n, hi_h[band], rtol=1e-12, atol=1e-12)
+    np.testing.assert_allclose(lo_s / n, lo_h, rtol=1e-12, atol=1e-12)
+    # where the band is empty the clamp gives the braking limit, the check counts any torque
+    # as outside (and as over speed)
+    np.testing.assert_allclose(hi_s[~band], lo_s[~band], rtol=1e-12)
+    # a sagging bus and a hot winding enter the check's envelope as the hand formula has them
+    v_sag, r_hot = 22.5, 2 * r_ph * (1 + 0.00393 * 80.0)
+    lo_b, hi_b = envelope_nm_bank(bank, w_m[None, :], np.full((1, w_m.size), v_sag),
+                                  np.array([[k * i_max]]), np.array([[r_hot]]))
+    lo_h, hi_h = _hand_envelope(k, r_hot, v_sag, k * i_max, w_m)
+    np.testing.assert_allclose(hi_b[0], hi_h, rtol=1e-12, atol=1e-12)
+    np.testing.assert_allclose(lo_b[0], lo_h, rtol=1e-12, atol=1e-12)
+
+
+def test_outside_envelope_time_in_the_voltage_limited_band_by_hand(tmp_path: Path):
+    # a knee held at 23 rad/s (motor 230 rad/s, between the corner 209 rad/s and the no-load
+    # speed 251 rad/s of a kV 100 motor on 24 V, R_LL 0.2 ohm, 20 A): where the voltage, not the
+    # current, limits the torque. Four quarters of a second: driving at 0.97 and 1.03 x the
+    # open-circuit voltage limit, the mirror image at -23 rad/s, and braking at 0.9 x the
+    # current limit. The pack's 0.01 ohm sags the bus by about 0.1 V, which pushes the first
+    # quarter outside too: the pack current I = 2P/(V + sqrt(V^2 - 4 R P)) of the terminal
+    # power P (copper loss included; ideal inverter) and the terminal voltage V - I R.
+    kv, r_ll, v, i_max, n, r_pack = 100.0, 0.2, 24.0, 20.0, 10.0, 0.01
+    k = 60.0 / (2.0 * math.pi * kv)
+    w_j = 23.0
+    u_nom = k * (v - k * n * w_j) / r_ll  # motor torque at the voltage limit, no sag
+    t_i = k * i_max
+    assert u_nom < 0.6 * t_i  # far inside the current limit: only the voltage limit bites
+    quarters = [(w_j, 0.97 * u_nom), (w_j, 1.03 * u_nom), (-w_j, -1.03 * u_nom),
+                (w_j, -0.9 * t_i)]
+    dt, dur = 0.001, 1.0
+    t = np.arange(round(dur / dt)) * dt
+    q = np.minimum((t / 0.25 + 1e-9).astype(int), 3)
+    speed = np.array([quarters[i][0] for i in q])
+    t_m = np.array([quarters[i][1] for i in q])
+    p = t_m * speed * n + (t_m / k) ** 2 * r_ll
+    i_b = 2 * p / (v + np.sqrt(v * v - 4 * r_pack * p))
+    lo, hi = _hand_envelope(k, r_ll, v - i_b * r_pack, t_i, speed * n)
+    outside = (t_m > hi) | (t_m < lo)
+    per_quarter = [bool(outside[q == i].all()) for i in range(4)]
+    assert per_quarter == [True, True, True, False]
+    _, hi_nom = _hand_envelope(k, r_ll, v, t_i, speed * n)
+    assert np.all(t_m[q == 0] < hi_nom[q == 0])  # inside without the sag
+
+    rec = write_synthetic_record(
+        tmp_path / "r.h5", dur, dt, joints=["fl_knee"],
+        torque_nm={"fl_knee": lambda tt: np.array([quarters[i][1] for i in np.minimum(
+            (tt / 0.25 + 1e-9).astype(int), 3)]) * n},
+        speed_rad_s={"fl_knee": lambda tt: np.array([quarters[i][0] for i in np.minimum(
+            (tt / 0.25 + 1e-9).astype(int), 3)])})
+    # thermal resistances so small that the winding stays at the 20 C ambient
+    m = make_motor(kv=kv, r_ph=r_ll / 2, rwh=1e-6, rha=1e-6, ta=20.0)
+    sup = supply(current_limit_a=i_max, cell_internal_resistance_ohm=r_pack)
+    rep = check_motors(rec, {"fl_knee": (m, n, 1.0, 1.0)}, sup)
+    s = rep.to_json()["joints"]["fl_knee"]
+    assert s["outside_envelope_s"] == pytest.approx(float(outside.sum()) * dt, abs=0.5 * dt)
+    assert s["over_speed_s"] == 0.0
+    assert rep.to_json()["supply"]["min_bus_voltage_v"] == pytest.approx(
+        float((v - i_b * r_pack).min()), rel=1e-9)

@@ -114,7 +114,11 @@ def test_peak_ratio_and_governing_limit():
     assert sec.verdict == "fail"
     ok = r.check_reducer(demo_rated(), r.JointDuty(spec), r.CheckSettings(required_life_h=100.0))
     assert ok.verdict == "pass"
-    assert ok.values["damage_per_h"] == pytest.approx(1.0 / ok.values["life_h"])
+    # damage per hour of use by hand (Palmgren-Miner over the two steps, each step's life from
+    # the rated point: L_i = 6000 h (20/T_i)^p (2/n_i)), and the life its inverse
+    hand = (3590 / 3600) / (6000 * (20 / 10) ** P) + (10 / 3600) / (6000 * (20 / 45) ** P)
+    assert ok.values["damage_per_h"] == pytest.approx(hand, rel=1e-9)
+    assert ok.values["life_h"] == pytest.approx(1.0 / hand, rel=1e-9)
 
 
 def test_life_governs_when_required_life_too_long():

@@ -9,6 +9,7 @@ import pytest
 from scipy import signal
 
 from sim import JOINT_NAMES
+from sim.loads.series import load_series_name
 from sim.record import open_record
 
 
@@ -23,7 +24,7 @@ def test_high_frequency_share_matches_an_offline_filter_of_the_every_step_series
             assert float(f["quality"].attrs["chatter_cutoff_hz"]) == 100.0
             taps = signal.firwin(101, 100.0, fs=1.0 / dt, window="hamming")
             for j in JOINT_NAMES:
-                x = f[f"joints/{j}/torque_nm"][:]
+                x = f[f"joints/{j}/{f.attrs['load_torque']}"][:]  # the load torque series
                 r = x[50:-50] - signal.convolve(x, taps, mode="valid")
                 ref = np.sqrt((r * r).sum() / (x[50:-50] ** 2).sum())
                 got = float(f[f"quality/{j}"].attrs["torque_high_frequency_share"])
@@ -34,7 +35,7 @@ def test_reversals_match_a_count_on_the_every_step_series(trot_records):
     with h5py.File(trot_records["dec1"]) as f:
         dur = float(f[f"summary/{JOINT_NAMES[0]}"].attrs["duration_s"])
         for j in JOINT_NAMES:
-            x = f[f"joints/{j}/torque_nm"][:]
+            x = f[f"joints/{j}/{f.attrs['load_torque']}"][:]
             band = 1e-6 * float(np.abs(f[f"histograms/{j}/torque_edges_nm"][:]).max())
             d = np.diff(x)
             s = np.sign(d[np.abs(d) > band])
@@ -51,7 +52,7 @@ def test_power_sums_equal_sums_over_the_every_step_series(trot_records):
             assert sums is not None
             powers, angle = sums
             assert sorted(powers) == [3.0, 3.333, 10.0 / 3.0, 9.0]
-            t = np.abs(rec.read(f"joints/{j}/torque_nm"))
+            t = np.abs(rec.read(load_series_name(rec, j)))
             w = np.abs(rec.read(f"joints/{j}/speed_rad_s"))
             assert angle == pytest.approx((w * dt).sum(), rel=1e-12)
             for p, v in powers.items():

@@ -16,8 +16,9 @@ import numpy as np
 import pytest
 
 from sim import JOINT_NAMES, LEGS
+from sim.loads.series import load_series_name
 from sim.record import open_record
-from sim.robot.model import model_from_data
+from sim.robot.model import model_from_texts
 from sim.robot.urdf import build_urdf
 
 G = 9.80665
@@ -29,12 +30,12 @@ def _last(rec, name, n=200):
 
 
 def _state(path):
-    import tomllib
-
     with open_record(path) as rec:
-        mdl = model_from_data(tomllib.loads(rec.attrs["model_toml"]), "record")
+        mdl = model_from_texts(rec.attrs["model_toml"], rec.attrs["drivetrain_toml"], "record")
         q = np.array([_last(rec, f"joints/{j}/angle_rad") for j in JOINT_NAMES])
-        tau = np.array([_last(rec, f"joints/{j}/torque_nm") for j in JOINT_NAMES])
+        # the torque the reducer output applies to the joint (the motor torque less the
+        # simulated reducer losses)
+        tau = np.array([_last(rec, load_series_name(rec, j)) for j in JOINT_NAMES])
         F = np.array([_last(rec, f"feet/{leg}/force_n") for leg in LEGS])
         pos = _last(rec, "base/position_m")
         quat = _last(rec, "base/orientation_xyzw")
@@ -130,3 +131,68 @@ def test_sagittal_torques_match_closed_form_two_link_statics(stand_record):
             [(th.mass_kg * math.cos(a), (-c_th * math.sin(qh), -c_th * math.cos(qh)))])
         assert tau[3 * k + 2] == pytest.approx(knee, rel=0.02), f"{leg}_knee"
         assert tau[3 * k + 1] == pytest.approx(hip, rel=0.02), f"{leg}_hip"
+
+
+# --- the stance feed-forward against pinocchio, no engine -------------------------------------
+# pinocchio (``pin`` from PyPI) on the exported URDF with a free-flyer root held at the base
+# frame: the generalized gravity g(q) and the contact-point Jacobians give the joint torques
+# that hold the legs still under given foot forces, tau = g(q) - sum J_c^T f; the total mass and
+# centre of mass of the whole tree give the forces a standing robot needs (Newton: sum f = -M g;
+# no moment about the COM).
+
+
+def _pinocchio_statics(mdl, q, gravity_b, forces_b, contacts_b):
+    pin = pytest.importorskip("pinocchio")
+    pm = pin.buildModelFromXML(build_urdf(mdl), pin.JointModelFreeFlyer())
+    pm.gravity.linear = np.asarray(gravity_b, float)
+    pd = pm.createData()
+    qq = np.concatenate([[0, 0, 0, 0, 0, 0, 1.0], np.reshape(q, -1)])
+    g = pin.computeGeneralizedGravity(pm, pd, qq)
+    pin.computeJointJacobians(pm, pd, qq)
+    pin.updateFramePlacements(pm, pd)
+    tau = g.copy()
+    for k, leg in enumerate(LEGS):
+        fid = pm.getFrameId(f"{leg}_foot")
+        J = pin.getFrameJacobian(pm, pd, fid, pin.ReferenceFrame.LOCAL_WORLD_ALIGNED)
+        r = contacts_b[k] - pd.oMf[fid].translation  # foot centre to contact point
+        skew = np.array([[0, -r[2], r[1]], [r[2], 0, -r[0]], [-r[1], r[0], 0]])
+        tau -= (J[:3] - skew @ J[3:]).T @ forces_b[k]
+    com = pin.centerOfMass(pm, pd, qq)
+    return tau[6:].reshape(4, 3), pin.computeTotalMass(pm), com
+
+
+@pytest.mark.parametrize("variant", ["demo", "long heavy legs"])
+@pytest.mark.parametrize("stance", [(1, 1, 1, 1), (1, 0, 0, 1), (1, 1, 1, 0)])
+def test_stance_feed_forward_matches_pinocchio(variant, stance):
+    from sim.robot.model import load_model
+    from sim.robot.statics import StanceStatics
+
+    from .conftest import MODELS
+
+    over = {} if variant == "demo" else {"leg.thigh_length_m": 0.26, "leg.shank_length_m": 0.25,
+                                          "leg.thigh_mass_kg": 1.1, "leg.shank_mass_kg": 0.45,
+                                          "leg.foot_mass_kg": 0.12}
+    mdl = load_model(MODELS / "fennec.toml", over)
+    st_ = StanceStatics(mdl)
+    q = np.array([[0.08, 0.7, -1.4], [-0.05, 0.9, -1.7], [0.11, 0.6, -1.2], [-0.02, 0.8, -1.5]])
+    g = np.array([1.3, -0.6, -9.6])  # base tilted against gravity
+    g = g / np.linalg.norm(g) * G
+    mask = np.array(stance, bool)
+    tau, forces = st_.torques(q, g, mask)
+    up = -g / G
+    contacts = st_.kin.foot_positions(q) - st_.kin.foot_radius_m * up
+    tau_pin, mass_pin, com_pin = _pinocchio_statics(mdl, q, g, forces, contacts)
+    # the robot's weight, legs included, rests on the stance feet, with no moment about the COM
+    # (a diagonal pair cannot hold the COM off its line statically: there the split is a
+    # least-squares compromise and only the torques for it are compared)
+    assert st_.total_mass_kg == pytest.approx(mass_pin, rel=1e-9)
+    np.testing.assert_allclose(forces[~mask], 0.0, atol=0)
+    if mask.sum() >= 3:
+        np.testing.assert_allclose(forces.sum(axis=0), -mass_pin * g, rtol=1e-9, atol=1e-9)
+        mom = np.cross(contacts[mask] - com_pin, forces[mask]).sum(axis=0)
+        assert np.abs(mom).max() < 1e-9 * mass_pin * G
+    # and the joint torques are pinocchio's for those forces, swing legs holding themselves
+    np.testing.assert_allclose(tau, tau_pin, rtol=1e-9, atol=1e-9)
+    # the same torques from the kinematics' statics (used by the leg solver)
+    np.testing.assert_allclose(st_.kin.static_torques(q, g, forces), tau_pin, rtol=1e-9,
+                               atol=1e-9)

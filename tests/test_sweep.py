@@ -20,7 +20,6 @@ from __future__ import annotations
 import itertools
 import json
 import math
-import shutil
 from pathlib import Path
 
 import numpy as np
@@ -174,6 +173,47 @@ def test_standing_knee_torque_grows_with_segment_length_and_matches_closed_form(
     assert peaks[-1] / peaks[0] == pytest.approx(ratio, rel=0.05)
 
 
+def test_ranking_and_winner_of_completed_cases_follow_the_closed_form(lengths_run):
+    # four completed cases ranked by the front-left knee RMS torque, goal "min": by the lever
+    # arm sqrt(l^2 - h^2/4) of the closed form above the knee torque grows with the segment
+    # length, so by hand the ranking is 0.18, 0.20, 0.22, 0.24 m, the winner the shortest legs
+    # and the margin the runner-up's value less the winner's
+    _sweep, result = lengths_run
+    by_len = {c.params["robot.leg.thigh_length_m"]: c.index for c in result.cases}
+    hand = tuple(by_len[x] for x in sorted(LENGTHS_M))
+    assert result.ranked == hand
+    s = result.summary()
+    assert s["n_ranked"] == 4
+    win, run_up = result.cases[hand[0]], result.cases[hand[1]]
+    assert s["winner"]["case"] == hand[0] and s["runner_up"]["case"] == hand[1]
+    assert s["winner"]["params"]["robot.leg.thigh_length_m"] == min(LENGTHS_M)
+    assert s["winner"]["value"] == win.metrics[KNEES[0]]
+    d = run_up.metrics[KNEES[0]] - win.metrics[KNEES[0]]
+    assert d > 0
+    assert s["margin"]["abs"] == pytest.approx(d, rel=1e-12)
+    assert s["margin"]["rel"] == pytest.approx(d / win.metrics[KNEES[0]], rel=1e-12)
+    assert [r["rank"] for r in result.rows()] == [1, 2, 3, 4]
+    assert [r["case"] for r in result.rows()] == list(hand)
+
+
+def _case(i, value, status="completed", flagged=False):
+    from sim.sweeps.ranking import CaseResult
+
+    return CaseResult(i, f"k{i}", status, "", {}, {"m": value}, flagged)
+
+
+def test_rank_cases_by_hand_min_max_flagged_ties_and_unrankable():
+    from sim.sweeps.ranking import rank_cases
+
+    cases = [_case(0, 3.0), _case(1, 1.0), _case(2, 2.0), _case(3, 1.0), _case(4, 0.5,
+             flagged=True), _case(5, 0.1, "fell"), _case(6, float("nan")), _case(7, None),
+             _case(8, 0.2, "infeasible"), _case(9, 9.0, flagged=True)]
+    # min: clean cases by value (ties in case order), then the flagged ones by value
+    assert rank_cases(cases, "m", "min") == (1, 3, 2, 0, 4, 9)
+    # max: the same groups, largest first
+    assert rank_cases(cases, "m", "max") == (0, 2, 1, 3, 9, 4)
+
+
 # --- failed cases ----------------------------------------------------------------------------
 
 def test_failed_and_infeasible_cases_are_listed_and_never_ranked(tmp_path, capsys):
@@ -294,24 +334,29 @@ def test_a_registered_provider_is_validated_and_evaluated(monkeypatch):
 
 def test_cli_provider_runs_a_command_in_process_and_reads_its_json(monkeypatch, tmp_path):
     model_file = tmp_path / "m.toml"
-    shutil.copy(MODELS / "fennec.toml", model_file)
+    model_file.write_text((MODELS / "fennec.toml").read_text().replace(
+        'drivetrain = "drivetrain_demo.toml"', f'drivetrain = "{MODELS / "drivetrain_demo.toml"}"'))
     monkeypatch.setitem(PROVIDERS, "mdl", PROVIDERS["run"])
     register_cli_provider("mdl", lambda ctx: ["model", str(model_file), "--json"],
                           {"total_mass_kg": float, "peak_torque_nm": {"*": float}}, "model")
     ctx = CaseContext(tmp_path / "none.h5", {}, "", "", None)
     doc = PROVIDERS["mdl"].produce(ctx)
-    # demo knee: ratio 9 x current limit 30 A x Kt 0.11937 N m/A (I_max Kt N at the output)
+    # demo knee: ratio 9 x current limit 30 A x Kt (I_max Kt N at the output), Kt from the
+    # demo motor's kV: 60 / (2 pi 80) N m/A
     assert evaluate_metric(parse_metric("mdl.peak_torque_nm.knee"), doc) == pytest.approx(
-        9 * 30 * 0.11937)
+        9 * 30 * 60 / (2 * math.pi * 80), rel=1e-12)
 
 
 def test_model_provider_gives_reflected_inertia_n_squared_j():
+    from sim.robot.model import load_model
     from sim.sweeps.providers import _model_provider
 
     text = (MODELS / "fennec.toml").read_text()
-    doc = _model_provider(CaseContext(Path("x"), {}, "", text, None))
+    drive = load_model(MODELS / "fennec.toml").drivetrain.to_toml()
+    doc = _model_provider(CaseContext(Path("x"), {}, "", text, drive))
     ev = evaluate_metric(parse_metric("model.actuators.fl_knee.reflected_inertia_kg_m2"), doc)
-    assert ev == pytest.approx(9 ** 2 * 6.5e-5, rel=1e-12)  # N^2 J_rotor, N = 9
+    # by hand from the demo parts: N^2 (J_rotor + J_in) + J_out, N = 9
+    assert ev == pytest.approx(9 ** 2 * (6.5e-5 + 3.0e-6) + 2.0e-5, rel=1e-12)
 
 
 def test_the_fork_server_preloads_modules_that_exist():
@@ -384,11 +429,33 @@ def test_pareto_front_is_exactly_the_non_dominated_set(points, gx, gy):
 
 # --- plots -----------------------------------------------------------------------------------
 
-def test_plots_are_written(lengths_run, tmp_path):
+def test_plots_are_written_and_show_the_cases(lengths_run, tmp_path, monkeypatch):
+    from matplotlib.image import imread
+
+    from sim.figures import common
     from sim.figures.sweep import plot_metrics, plot_pareto
 
+    figs = []
+    real = common.save_figure_atomic
+    monkeypatch.setattr(common, "save_figure_atomic",
+                        lambda fig, path, **kw: (figs.append(fig), real(fig, path, **kw))[1])
     _, result = lengths_run
     f = plot_metrics(result, tmp_path / "metrics.png")
-    assert f is not None and f.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert f is not None
+    img = imread(f)
+    assert img.shape[0] > 300 and img[..., :3].std() > 0.05  # a real image, not blank
     assert plot_pareto(result, tmp_path / "pareto.png") is None  # no [pareto] table
     assert sorted(p.name for p in tmp_path.iterdir()) == ["metrics.png"]
+    # one panel per metric (rows) against the one varied numeric key (the thigh length; the
+    # shank length varies with it), each showing every ranked case at (length, metric)
+    (fig,) = figs
+    metrics = list(result.sweep.metrics)
+    keys = [a.get_xlabel() for a in fig.axes if a.get_xlabel()]
+    assert len(fig.axes) == len(metrics) * len(keys) and len(keys) == 2
+    for r, m in enumerate(metrics):
+        for c_, k in enumerate(["robot.leg.thigh_length_m", "robot.leg.shank_length_m"]):
+            ax = fig.axes[r * 2 + c_]
+            (dots,) = [ln for ln in ax.get_lines() if ln.get_label() == "ranked"]
+            want = sorted((c.params[k], c.metrics[m]) for c in result.cases)
+            np.testing.assert_array_equal(dots.get_xdata(), [x for x, _ in want])
+            np.testing.assert_array_equal(dots.get_ydata(), [y for _, y in want])

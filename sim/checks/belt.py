@@ -37,6 +37,7 @@ from sim.checks.reducer_part import (
 from sim.checks.report import Limit
 from sim.core.config import Field, validate
 from sim.core.errors import InputError
+from sim.parts.ratios import stage_chain_ratio
 
 
 def pitch_diameter_m(teeth: int, pitch_m: float) -> float:
@@ -224,6 +225,6 @@ def belt_from_table(data: Mapping[str, Any], file: str) -> BeltDrive:
                              f"more than the sum of the pulley radii, {0.5 * (d + big):.6g} m "
                              "(pulleys overlap)", st.centre_distance_m)
         stages.append(st)
-    ratio = math.prod(st.ratio for st in stages)
+    ratio = stage_chain_ratio((st.driver_teeth, st.driven_teeth) for st in stages)
     check_stated_ratio(v, ratio, file)
     return BeltDrive(**common_values(v, file), ratio=ratio, stages=tuple(stages))

@@ -43,12 +43,9 @@ import math
 
 import numpy as np
 
+from sim.parts.ratios import ratio_fixed_ring
 
-def ratio_fixed_ring(ring_pins: int, lobes: int) -> float:
-    """Speed ratio input/output with the ring fixed and output from the disc: ``z_c/(N-z_c)``."""
-    if lobes >= ring_pins:
-        raise ValueError("lobes must be fewer than ring pins")
-    return lobes / (ring_pins - lobes)
+__all__ = ["ratio_fixed_ring"]  # re-exported: the ratio is defined once, in sim.parts
 
 
 def pitch_curve_xy(ring_pins: int, pin_circle_radius_m: float, eccentricity_m: float,

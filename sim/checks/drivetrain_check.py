@@ -16,15 +16,78 @@ import math
 from dataclasses import dataclass, replace
 from pathlib import Path
 
-from sim.checks.drivetrain_file import Drivetrain, load_drivetrain
+from sim.checks.drivetrain_file import (
+    Drivetrain,
+    drivetrain_from_resolved,
+    drivetrain_of_record,
+    load_drivetrain,
+    simulated_values,
+    used_keys,
+)
 from sim.checks.duty_input import duty_records, load_duties, motor_duty_source
 from sim.checks.motor import MotorReport, check_motors
-from sim.checks.motor_part import load_motor_part
+from sim.checks.motor_duty import Drive
 from sim.checks.reducer import NOT_MODELLED, CheckSettings, JointDuty, check_reducer
 from sim.checks.report import CheckReport, Section, add_not_modelled, add_section
 from sim.checks.supply import load_supply
 from sim.core.errors import InputError
 from sim.loads.quality import ScreenSet, screen_records
+from sim.parts.drivetrain import differences, reducer_ratio
+from sim.record import open_record
+
+
+def drivetrain_for_duty(duty: str | Path, drivetrain: str | Path | None = None,
+                        what_if: bool = False) -> tuple[Drivetrain, list[dict]]:
+    """The drivetrain to check a duty against, and what it changes against the simulation.
+
+    Without ``drivetrain``: the one the duty's records were simulated with (every record of a
+    mix must agree). With one: it must agree with every record in every value the simulation
+    used (:func:`sim.checks.drivetrain_file.used_keys`), else an input error names the joint,
+    the key and both values; ``what_if`` accepts the differences and returns them, so the
+    report can say what differs and that the duty was not re-simulated."""
+    records = duty_records(duty)
+    sims = []
+    stored = None
+    for path in records:
+        with open_record(path) as rec:
+            values, _ = simulated_values(rec)
+            sims.append((path, values, used_keys(rec)))
+            if stored is None:
+                stored = drivetrain_of_record(rec)
+    if drivetrain is None:
+        if stored is None:
+            raise InputError(str(records[0]), "drivetrain_toml",
+                             "a record that stores the drivetrain it was simulated with "
+                             "(records from before: give --drivetrain FILE)")
+        dt = drivetrain_from_resolved(stored)
+        label = f"the drivetrain stored in {records[0]}"
+    else:
+        dt = load_drivetrain(drivetrain)
+        label = str(drivetrain)
+    found: list[dict] = []
+    for path, values, keys in sims:
+        diffs = differences(values, dt.resolved, keys)
+        for j, jd in dt.joints.items():  # a reducer-only joint: its ratio still counts
+            if j in values and j not in dt.resolved.values and jd.reducer is not None:
+                src = dt.resolved.part(j, "reducer")
+                n = reducer_ratio(src.table, src.source)
+                if abs(n - values[j]["gear_ratio"]) > 1e-9 * n:
+                    diffs.append((j, "gear_ratio", values[j]["gear_ratio"], n))
+        for j, k, a, b in diffs:
+            found.append({"joint": j, "key": k, "simulated": a, "checked": b,
+                          "record": str(path)})
+    if found and not what_if:
+        d = found[0]
+        where = (dt.resolved.value_source(d["joint"], d["key"])
+                 if d["joint"] in dt.resolved.values else label)
+        more = f" (and {len(found) - 1} more differences)" if len(found) > 1 else ""
+        raise InputError(label, f"{d['joint']} {d['key']}",
+                         f"the value {d['record']} was simulated with, {d['simulated']:.6g} "
+                         f"(checked: {d['checked']:.6g}, from {where}){more}; check against "
+                         "the record's own drivetrain (leave out --drivetrain), re-simulate "
+                         "with --set robot.drivetrain=FILE, or ask for a what-if with "
+                         "--what-if", d["checked"])
+    return dt, found
 
 
 def build_report(drivetrain: Drivetrain, duties: dict[str, JointDuty],
@@ -57,23 +120,29 @@ def add_motor_checks(report: CheckReport, drivetrain: Drivetrain, duty: Path,
     """Add a ``motor`` section per joint with a motor, and the whole-robot supply figures;
     returns the report and the motor check behind it (None when no joint has a motor)."""
     with_motor = {j: d for j, d in drivetrain.joints.items()
-                  if d.motor_path is not None and d.reducer is not None}
+                  if d.motor is not None and d.reducer is not None}
+    quick = sorted(j for j, d in with_motor.items() if d.motor.thermal is None)  # type: ignore[union-attr]
+    with_motor = {j: d for j, d in with_motor.items() if j not in quick}
+    if quick:
+        report = add_not_modelled(report, [
+            "motor of " + ", ".join(quick) + " not checked: its part file gives no thermal "
+            "network (a quick motor; add the four thermal keys and a winding limit, "
+            "docs/motor.md)"])
     if not with_motor:
         return report, None
     if not drivetrain.supply:
         raise InputError(drivetrain.file, "supply",
                          "a [supply] table when motors are assigned")
     supply = load_supply(dict(drivetrain.supply), drivetrain.file)
-    parts: dict[str, object] = {}
     drives = {}
     for j, d in with_motor.items():
-        assert d.motor_path is not None and d.reducer is not None
-        key = str(d.motor_path)
-        if key not in parts:
-            parts[key] = load_motor_part(d.motor_path)
+        assert d.motor is not None and d.reducer is not None
         red = d.reducer
-        drives[j] = (parts[key], red.ratio, red.efficiency_forward, red.efficiency_back,
-                     red.input_inertia_kg_m2)
+        # the reducer's inertia at the motor shaft: input side plus the output stage / N^2
+        # (the same sum the simulation's rotor carries, sim.parts.drivetrain)
+        drives[j] = Drive(d.motor, red.ratio, red.efficiency_forward, red.efficiency_back,
+                          red.input_inertia_kg_m2 + red.output_inertia_kg_m2 / red.ratio ** 2,
+                          d.current_limit_a)
     if mission_h is not None and not (mission_h > 0 and math.isfinite(mission_h)):
         raise InputError("--mission-h", None, "a positive number of hours", mission_h)
     mrep = check_motors(motor_duty_source(duty), drives, supply,
@@ -111,23 +180,28 @@ class DrivetrainCheck:
     quality: ScreenSet | None = None  # the quality screen of the duty's records
 
 
-def check_drivetrain(duty: str | Path, drivetrain: str | Path,
+def check_drivetrain(duty: str | Path, drivetrain: str | Path | None = None,
                      settings: CheckSettings | None = None, mission_h: float | None = None,
-                     allow_failed: bool = False) -> DrivetrainCheck:
-    """Check the parts of ``drivetrain`` (a drivetrain file) against ``duty`` (a run record or
-    a usage mix), as ``gaitload check`` does.
+                     allow_failed: bool = False, what_if: bool = False) -> DrivetrainCheck:
+    """Check the parts of ``drivetrain`` (a drivetrain file; default: the one the duty was
+    simulated with) against ``duty`` (a run record or a usage mix), as ``gaitload check`` does.
+    A drivetrain that differs from the simulated one is refused unless ``what_if``
+    (:func:`drivetrain_for_duty`); the report then lists the differences.
 
     ``mission_h``: also judge the winding temperature over a mission of this many hours from
     cold (default: continuous running, periodic steady state). ``allow_failed``: accept a
     record whose run fell or diverged. Bad input raises :class:`~sim.core.errors.InputError`.
     """
     settings = CheckSettings() if settings is None else settings
-    dt = load_drivetrain(drivetrain)
+    dt, changed = drivetrain_for_duty(duty, drivetrain, what_if)
     duties = load_duties(duty, list(dt.joints), allow_failed)
+    source = str(drivetrain) if drivetrain is not None else "as simulated (stored in the record)"
     report = build_report(dt, duties, settings,
-                          {"duty": str(duty), "drivetrain": str(drivetrain)})
+                          {"duty": str(duty), "drivetrain": source,
+                           "drivetrain_file": dt.file})
+    report = replace(report, what_if=tuple(changed))
     if not report.joints:
-        raise InputError(str(drivetrain), "joint",
+        raise InputError(str(drivetrain or duty), "joint",
                          "at least one joint with a reducer and a duty")
     report, motors = add_motor_checks(report, dt, Path(duty), mission_h, allow_failed)
     screen = screen_records(duty_records(duty))

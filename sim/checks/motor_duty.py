@@ -31,6 +31,7 @@ class Drive:
     efficiency_forward: float
     efficiency_back: float
     input_inertia_kg_m2: float = 0.0
+    current_limit_a: float | None = None  # this joint's limit, DC-equivalent; None: supply's
 
 
 def as_drive(x: Any) -> Drive:
@@ -62,11 +63,15 @@ class MotorBank:
         self.ambient = col([x.motor.ambient_temp_c if ambient_c is None else ambient_c
                             for x in d])
         self.limit = col([x.motor.max_winding_temp_c for x in d])
+        nets = [x.motor.thermal for x in d]
+        if any(n is None for n in nets):
+            raise ValueError("every motor checked needs a thermal network (quick motors are "
+                             "left out of the motor check)")
         self.net = th.ThermalNetwork(
-            col([x.motor.thermal.capacity_winding_j_per_k for x in d]),
-            col([x.motor.thermal.capacity_housing_j_per_k for x in d]),
-            col([x.motor.thermal.resistance_winding_housing_k_per_w for x in d]),
-            col([x.motor.thermal.resistance_housing_ambient_k_per_w for x in d]))
+            col([n.capacity_winding_j_per_k for n in nets if n is not None]),
+            col([n.capacity_housing_j_per_k for n in nets if n is not None]),
+            col([n.resistance_winding_housing_k_per_w for n in nets if n is not None]),
+            col([n.resistance_housing_ambient_k_per_w for n in nets if n is not None]))
 
 
 @dataclass
@@ -85,27 +90,27 @@ class DutyChunk:
     speed_xy: np.ndarray | None  # [rows] horizontal base speed
 
 
-def simulated_drive_effects(rec: RunRecord) -> tuple[bool, bool]:
-    """``(rotors, losses)``: whether the run simulated motor rotors and reducer losses."""
+def simulated_drive_effects(rec: RunRecord) -> tuple[bool, bool, bool]:
+    """``(rotors, losses, whole_inertia)``: whether the run simulated motor rotors and reducer
+    losses, and whether its rotors carried the reducer's inertia too (records that store
+    their drivetrain: rotor + reducer input + output / N^2) or the motor rotor alone."""
     import tomllib
 
+    from sim.checks.drivetrain_file import simulated_values
+
     if rec.attrs.get("load_torque", "torque_nm") != "gearbox_torque_nm":
-        return False, False
+        return False, False, False
     try:
         scn = tomllib.loads(str(rec.attrs.get("scenario_toml", "")))
     except tomllib.TOMLDecodeError:
-        return False, False
+        return False, False, False
     drive = scn.get("drive", {})
     rotors = drive.get("rotor_inertia", "off") != "off"
-    losses = False
-    if drive.get("losses", True):
-        from sim.robot.model import model_from_data
-
-        acts = model_from_data(tomllib.loads(str(rec.attrs["model_toml"])),
-                               str(rec.path)).actuators.values()
-        losses = any(a.friction_coulomb_nm > 0 or a.friction_viscous_nm_s_rad > 0
-                     or a.efficiency_forward < 1 or a.efficiency_back < 1 for a in acts)
-    return rotors, losses
+    values, whole = simulated_values(rec)
+    losses = bool(drive.get("losses", True)) and any(
+        v["friction_coulomb_nm"] > 0 or v["friction_viscous_nm_s_rad"] > 0
+        or v["efficiency_forward"] < 1 or v["efficiency_back"] < 1 for v in values.values())
+    return rotors, losses, whole
 
 
 def duty_chunks(rec: RunRecord, bank: MotorBank, rows: int) -> Iterator[DutyChunk]:
@@ -118,13 +123,14 @@ def duty_chunks(rec: RunRecord, bank: MotorBank, rows: int) -> Iterator[DutyChun
         names.append("base/velocity_m_s")
     dt = rec.duty_period_s
     nj = len(bank.joints)
-    rotors, losses = simulated_drive_effects(rec)
+    rotors, losses, whole = simulated_drive_effects(rec)
     # what the simulation already contains is not added again: with rotors simulated, the
     # recorded torque_nm (motor torque x ratio) includes the rotor's inertia; with reducer
     # losses simulated, it includes the reducer's friction and efficiency
     eta_f = np.ones_like(bank.eta_f) if losses else bank.eta_f
     eta_b = np.ones_like(bank.eta_b) if losses else bank.eta_b
-    inertia = bank.inertia - bank.rotor if rotors else bank.inertia
+    inertia = (np.zeros_like(bank.inertia) if whole else bank.inertia - bank.rotor) \
+        if rotors else bank.inertia
     prev: np.ndarray | None = None
     for start, arrays in rec.iter_chunks(names, rows):
         tau = np.stack(arrays[0:2 * nj:2])

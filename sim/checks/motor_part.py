@@ -44,62 +44,36 @@ from pathlib import Path
 import numpy as np
 
 from sim.checks import thermal as th
-from sim.checks.supply import CURRENT_CONVENTIONS, Supply
+from sim.checks.supply import Supply
 from sim.core.config import Field, load_toml, validate
 from sim.core.errors import InputError
+from sim.parts.drivetrain import MOTOR_SIM_SPEC, motor_sim_values
+from sim.parts.motor_constants import (  # one definition, shared with the simulation
+    CURRENT_CONVENTIONS,
+    RPM_PER_RAD_S,
+    SPEED_CONSTANT_VOLTAGES,
+    back_emf_constant,
+    back_emf_from_torque_constant,
+    speed_constant,
+    speed_to_torque_constant,
+    torque_constant,
+    torque_to_speed_constant,
+)
 
-SPEED_CONSTANT_VOLTAGES = ("line_to_line_peak", "line_to_line_rms")
-RPM_PER_RAD_S = 60.0 / (2.0 * math.pi)
-_CONV_FACTOR = {"dc_equivalent": 1.0, "phase_peak": math.sqrt(3.0) / 2.0,
-                "phase_rms": math.sqrt(1.5), "power_invariant": 1.0 / math.sqrt(2.0)}
-
-
-# -- constants and conventions --------------------------------------------------------------
-def back_emf_constant(speed_constant_rpm_per_v: float,
-                      voltage: str = "line_to_line_peak") -> float:
-    """``k`` in V s/rad (line-to-line peak per rad/s) from kV in rpm/V: ``60/(2 pi kV)``,
-    times sqrt(2) when kV is quoted per volt of line-to-line RMS."""
-    if voltage not in SPEED_CONSTANT_VOLTAGES:
-        raise ValueError(f"voltage convention must be one of {SPEED_CONSTANT_VOLTAGES}")
-    k = RPM_PER_RAD_S / speed_constant_rpm_per_v
-    return k * math.sqrt(2.0) if voltage == "line_to_line_rms" else k
-
-
-def speed_constant(back_emf_v_s_per_rad: float, voltage: str = "line_to_line_peak") -> float:
-    """Inverse of :func:`back_emf_constant`: kV in rpm/V."""
-    k = back_emf_v_s_per_rad / math.sqrt(2.0) if voltage == "line_to_line_rms" else (
-        back_emf_v_s_per_rad)
-    if voltage not in SPEED_CONSTANT_VOLTAGES:
-        raise ValueError(f"voltage convention must be one of {SPEED_CONSTANT_VOLTAGES}")
-    return RPM_PER_RAD_S / k
-
-
-def torque_constant(back_emf_v_s_per_rad: float, current: str = "dc_equivalent") -> float:
-    """Torque constant (N m/A) for a current convention, from ``k`` (see module docstring)."""
-    if current not in _CONV_FACTOR:
-        raise ValueError(f"current convention must be one of {CURRENT_CONVENTIONS}")
-    return back_emf_v_s_per_rad * _CONV_FACTOR[current]
-
-
-def back_emf_from_torque_constant(torque_constant_nm_per_a: float,
-                                  current: str = "dc_equivalent") -> float:
-    """Inverse of :func:`torque_constant`: ``k`` in V s/rad."""
-    if current not in _CONV_FACTOR:
-        raise ValueError(f"current convention must be one of {CURRENT_CONVENTIONS}")
-    return torque_constant_nm_per_a / _CONV_FACTOR[current]
-
-
-def speed_to_torque_constant(speed_constant_rpm_per_v: float, current: str,
-                             voltage: str = "line_to_line_peak") -> float:
-    """kV (rpm/V) -> torque constant (N m/A) under the stated conventions."""
-    return torque_constant(back_emf_constant(speed_constant_rpm_per_v, voltage), current)
-
-
-def torque_to_speed_constant(torque_constant_nm_per_a: float, current: str,
-                             voltage: str = "line_to_line_peak") -> float:
-    """Torque constant (N m/A) -> kV (rpm/V) under the stated conventions."""
-    return speed_constant(back_emf_from_torque_constant(torque_constant_nm_per_a, current),
-                          voltage)
+__all__ = [
+    "CURRENT_CONVENTIONS",
+    "RPM_PER_RAD_S",
+    "SPEED_CONSTANT_VOLTAGES",
+    "MotorPart",
+    "back_emf_constant",
+    "back_emf_from_torque_constant",
+    "load_motor_part",
+    "motor_from_table",
+    "speed_constant",
+    "speed_to_torque_constant",
+    "torque_constant",
+    "torque_to_speed_constant",
+]
 
 
 # -- the part -------------------------------------------------------------------------------
@@ -117,7 +91,7 @@ class MotorPart:
     back_emf_v_s_per_rad: float
     phase_resistance_ohm_20c: float
     rotor_inertia_kg_m2: float
-    thermal: th.ThermalNetwork
+    thermal: th.ThermalNetwork | None
     max_winding_temp_c: float
     winding: str = "star"
     friction_torque_nm: float = 0.0
@@ -160,6 +134,8 @@ class MotorPart:
 
         ``T = k sqrt(P / R_LL(T_max))`` with ``P = (T_max - T_a) / (R_wh + R_ha)``.
         """
+        if self.thermal is None:
+            raise ValueError(f"motor {self.name}: no thermal network (a quick motor)")
         ta = self.ambient_temp_c if ambient_c is None else ambient_c
         p = max(self.max_winding_temp_c - ta, 0.0) / float(self.thermal.total_resistance_k_per_w)
         return self.back_emf_v_s_per_rad * math.sqrt(
@@ -178,27 +154,23 @@ def _class_check(value: str) -> str | None:
 
 
 _POS = {"min": 0.0, "min_inclusive": False}
+THERMAL_KEYS = ("thermal_resistance_winding_housing_k_per_w",
+                "thermal_resistance_housing_ambient_k_per_w",
+                "thermal_capacity_winding_j_per_k", "thermal_capacity_housing_j_per_k")
+
 MOTOR_SPEC: dict[str, Field] = {
     "kind": Field(str, default="motor", choices=("motor",)),
     "name": Field(str, required=True),
     "note": Field(str, "where the numbers come from", default=""),
-    "speed_constant_rpm_per_v": Field(float, "rpm/V", **_POS),  # type: ignore[arg-type]
-    "speed_constant_voltage": Field(str, default="line_to_line_peak",
-                                    choices=SPEED_CONSTANT_VOLTAGES),
-    "torque_constant_nm_per_a": Field(float, "N m/A", **_POS),  # type: ignore[arg-type]
-    "torque_constant_current": Field(str, choices=CURRENT_CONVENTIONS),
-    "phase_resistance_ohm_20c": Field(float, "ohm", required=True, **_POS),  # type: ignore[arg-type]
-    "winding": Field(str, default="star", choices=("star", "delta")),
-    "rotor_inertia_kg_m2": Field(float, "kg m^2", required=True, min=0.0),
+    **MOTOR_SIM_SPEC,  # kV or Kt, resistance, winding, rotor inertia: sim.parts.drivetrain
     "no_load_current_a": Field(float, "A, DC-equivalent", min=0.0),
     "friction_torque_nm": Field(float, "N m", default=0.0, min=0.0),
     "viscous_friction_nm_s_per_rad": Field(float, "N m s/rad", default=0.0, min=0.0),
     "hysteresis_loss_w_s_per_rad": Field(float, "W per rad/s", default=0.0, min=0.0),
     "eddy_loss_w_s2_per_rad2": Field(float, "W per (rad/s)^2", default=0.0, min=0.0),
-    "thermal_resistance_winding_housing_k_per_w": Field(float, "K/W", required=True, **_POS),  # type: ignore[arg-type]
-    "thermal_resistance_housing_ambient_k_per_w": Field(float, "K/W", required=True, **_POS),  # type: ignore[arg-type]
-    "thermal_capacity_winding_j_per_k": Field(float, "J/K", required=True, **_POS),  # type: ignore[arg-type]
-    "thermal_capacity_housing_j_per_k": Field(float, "J/K", required=True, **_POS),  # type: ignore[arg-type]
+    # the thermal network: all four, or none (a quick motor; its heating is then not checked)
+    **{k: Field(float, "K/W" if "resistance" in k else "J/K", **_POS)  # type: ignore[arg-type]
+       for k in THERMAL_KEYS},
     "insulation_class": Field(str, check=_class_check),
     "max_winding_temp_c": Field(float, "C"),
     "ambient_temp_c": Field(float, "C", default=25.0),
@@ -209,39 +181,38 @@ MOTOR_SPEC: dict[str, Field] = {
 
 def load_motor_part(path: str | Path) -> MotorPart:
     """Read and validate a motor part file (see ``models/parts/motor_demo.toml``)."""
-    file = str(path)
-    v = validate(load_toml(path, "motor part file"), MOTOR_SPEC, file=file)
-    kv, kt = v["speed_constant_rpm_per_v"], v["torque_constant_nm_per_a"]
-    if (kv is None) == (kt is None):
-        raise InputError(file, "speed_constant_rpm_per_v",
-                         "exactly one of speed_constant_rpm_per_v or torque_constant_nm_per_a")
-    if kt is not None:
-        if v["torque_constant_current"] is None:
-            raise InputError(file, "torque_constant_current", "the current convention of the "
-                             "torque constant: one of " + ", ".join(CURRENT_CONVENTIONS))
-        k = back_emf_from_torque_constant(kt, v["torque_constant_current"])
-    else:
-        if v["torque_constant_current"] is not None:
-            raise InputError(file, "torque_constant_current",
-                             "no current convention without torque_constant_nm_per_a")
-        k = back_emf_constant(kv, v["speed_constant_voltage"])
+    return motor_from_table(load_toml(path, "motor part file"), str(path))
+
+
+def motor_from_table(table: dict, file: str) -> MotorPart:
+    """Validate a motor part table (as read from ``file``) into a :class:`MotorPart`.
+
+    The constants the simulation uses come from :func:`sim.parts.drivetrain.motor_sim_values`,
+    the same function the simulation calls. A part without its thermal network is a quick
+    motor: ``thermal`` is None and the motor check leaves it out (and says so)."""
+    v = validate(table, MOTOR_SPEC, file=file)
+    k = motor_sim_values(table, file)["back_emf_v_s_per_rad"]
+    given = [key for key in THERMAL_KEYS if v[key] is not None]
+    if given and len(given) < len(THERMAL_KEYS):
+        missing = next(key for key in THERMAL_KEYS if v[key] is None)
+        raise InputError(file, missing, "all four thermal network keys or none (" +
+                         ", ".join(THERMAL_KEYS) + ")")
+    net = th.ThermalNetwork(*(v[key] for key in (THERMAL_KEYS[2], THERMAL_KEYS[3],
+                                                  THERMAL_KEYS[0], THERMAL_KEYS[1]))
+                            ) if given else None
     limits = []
     if v["insulation_class"] is not None:
         limits.append(th.insulation_limit_c(v["insulation_class"]))
     if v["max_winding_temp_c"] is not None:
         limits.append(v["max_winding_temp_c"])
-    if not limits:
+    if not limits and net is not None:
         raise InputError(file, "insulation_class",
                          "insulation_class (IEC 60085) or max_winding_temp_c")
-    t_max = min(limits)
+    t_max = min(limits) if limits else math.nan
     if t_max <= v["ambient_temp_c"]:
         raise InputError(file, "max_winding_temp_c", "a winding limit above ambient_temp_c",
                          t_max)
     friction = v["friction_torque_nm"] + k * (v["no_load_current_a"] or 0.0)
-    net = th.ThermalNetwork(v["thermal_capacity_winding_j_per_k"],
-                            v["thermal_capacity_housing_j_per_k"],
-                            v["thermal_resistance_winding_housing_k_per_w"],
-                            v["thermal_resistance_housing_ambient_k_per_w"])
     return MotorPart(
         name=v["name"], back_emf_v_s_per_rad=k,
         phase_resistance_ohm_20c=v["phase_resistance_ohm_20c"],
@@ -281,8 +252,12 @@ def joint_torque_from_motor(motor_torque_nm: np.ndarray, joint_speed_rad_s: np.n
     return np.where(forward, tm * ratio * efficiency_forward, tm * ratio / efficiency_back)
 
 
-def current_limit_torque_nm(motor: MotorPart, supply: Supply) -> float:
-    """Electromagnetic torque at the driver current limit (stated convention), N m."""
+def current_limit_torque_nm(motor: MotorPart, supply: Supply,
+                            current_limit_dc_a: float | None = None) -> float:
+    """Electromagnetic torque at the driver current limit, N m: the supply's limit in its
+    stated convention, or a joint's own limit given as DC-equivalent amperes."""
+    if current_limit_dc_a is not None:
+        return motor.back_emf_v_s_per_rad * current_limit_dc_a
     return motor.torque_constant_nm_per_a(supply.current_limit_convention) * (
         supply.current_limit_a)
 

@@ -279,7 +279,7 @@ def record_result(path: str | Path, weight: float, drives: Mapping[str, Drive],
         thermal = thermal_analysis(rec, bank, dt, n, rows, mission_s)
         block = max(1, math.ceil(n / series_points))
         rows_b = max(block, (rows // block) * block)
-        t_lim = np.array([current_limit_torque_nm(drives[j].motor, supply)
+        t_lim = np.array([current_limit_torque_nm(drives[j].motor, supply, drives[j].current_limit_a)
                           for j in bank.joints])
         tally = _RecordTally(bank, supply, thermal, t_lim, dt, density_bins, block,
                              rec.has("base/velocity_m_s"))

@@ -47,11 +47,7 @@ from sim.checks.report import Limit
 from sim.core.config import Field, validate
 from sim.core.errors import InputError
 from sim.loads.spectra import equivalent_torque_nm, mean_abs_speed_rad_s
-
-
-def planetary_ratio(sun_teeth: int, ring_teeth: int) -> float:
-    """Input/output speed ratio, sun in, ring fixed, carrier out: ``1 + Z_r/Z_s``."""
-    return 1.0 + ring_teeth / sun_teeth
+from sim.parts.ratios import planetary_ratio
 
 
 def concentric(sun_teeth: int, ring_teeth: int, planet_teeth: int) -> bool:

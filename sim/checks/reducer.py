@@ -16,7 +16,7 @@ reducer whose life-limiting rolling contacts carry loads proportional to output 
 ``1/L_h`` (Palmgren-Miner); momentary-peak events add ``events_per_h / permitted_count``.
 
 Back-drivability: the output torque that turns the input against its drag,
-``T_bd = ratio (T_drag_in + T_motor_drag) / eta_back`` (self-locking when ``eta_back = 0``), and
+``T_bd = ratio (T_drag_in + T_motor_drag) / eta_back + T_friction_out`` (self-locking when ``eta_back = 0``), and
 the inertia felt at the output, ``J_out = (J_rotor + J_in) ratio^2 + J_out_stage``.
 """
 
@@ -84,13 +84,15 @@ def allowable_equivalent_torque_nm(rated_torque_nm: float, rated_speed_rad_s: fl
 # ---- back-drivability ---------------------------------------------------------------------
 
 def backdrive_torque_nm(part: ReducerPart, motor_drag_torque_nm: float = 0.0) -> float:
-    """Output torque needed to back-drive: ``ratio (T_drag_in + T_motor)/eta_back`` (N m).
+    """Output torque needed to back-drive: ``ratio (T_drag_in + T_motor)/eta_back + T_out``
+    (N m), ``T_out`` the part's Coulomb friction at the output.
 
     Infinite when the reducer is self-locking (``efficiency_back == 0``).
     """
     if part.efficiency_back <= 0.0:
         return math.inf
-    return part.ratio * (part.input_drag_torque_nm + motor_drag_torque_nm) / part.efficiency_back
+    return part.ratio * (part.input_drag_torque_nm + motor_drag_torque_nm) / part.efficiency_back \
+        + part.output_friction_torque_nm
 
 
 def reflected_inertia_kg_m2(part: ReducerPart, rotor_inertia_kg_m2: float = 0.0) -> float:

@@ -17,11 +17,11 @@ from typing import Any
 import numpy as np
 
 from sim.checks.report import Limit
-from sim.core.config import Field
 from sim.core.errors import InputError
 from sim.loads.spectra import JointSpectrum
+from sim.parts.drivetrain import REDUCER_COMMON_SPEC, REDUCER_KINDS
 
-KINDS = ("rated", "cycloidal", "planetary", "belt")
+KINDS = REDUCER_KINDS
 
 
 @dataclass(frozen=True)
@@ -49,23 +49,7 @@ class JointDuty:
 
 # ---- common part data ---------------------------------------------------------------------
 
-COMMON_SPEC: dict[str, Any] = {
-    "kind": Field(str, choices=KINDS, required=True),
-    "name": Field(str, "a short name", default=""),
-    "description": Field(str, default=""),
-    "ratio": Field(float, "output/input speed reduction, > 1 (computed for geometry kinds; "
-                   "if given it must match)", min=1.0, min_inclusive=False),
-    "efficiency_forward": Field(float, "motor driving the joint", required=True, min=0.0,
-                                max=1.0, min_inclusive=False),
-    "efficiency_back": Field(float, "joint driving the motor; 0 = self-locking", required=True,
-                             min=0.0, max=1.0),
-    "backlash_rad": Field(float, "at the output", default=0.0, min=0.0),
-    "input_inertia_kg_m2": Field(float, "reducer inertia referred to its input", required=True,
-                                 min=0.0),
-    "output_inertia_kg_m2": Field(float, "stage inertia turning with the output", default=0.0,
-                                  min=0.0),
-    "input_drag_torque_nm": Field(float, "no-load drag at the input", default=0.0, min=0.0),
-}
+COMMON_SPEC: dict[str, Any] = REDUCER_COMMON_SPEC  # one definition: sim.parts.drivetrain
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -82,6 +66,7 @@ class ReducerPart:
     input_inertia_kg_m2: float = 0.0
     output_inertia_kg_m2: float = 0.0
     input_drag_torque_nm: float = 0.0
+    output_friction_torque_nm: float = 0.0
 
     def limits(self, duty: JointDuty, settings: CheckSettings) -> list[Limit]:
         raise NotImplementedError  # each kind provides its own
@@ -101,7 +86,8 @@ def common_values(v: Mapping[str, Any], file: str) -> dict[str, Any]:
             "efficiency_back": v["efficiency_back"], "backlash_rad": v["backlash_rad"],
             "input_inertia_kg_m2": v["input_inertia_kg_m2"],
             "output_inertia_kg_m2": v["output_inertia_kg_m2"],
-            "input_drag_torque_nm": v["input_drag_torque_nm"]}
+            "input_drag_torque_nm": v["input_drag_torque_nm"],
+            "output_friction_torque_nm": v["output_friction_torque_nm"]}
 
 
 def check_stated_ratio(v: Mapping[str, Any], computed: float, file: str) -> None:

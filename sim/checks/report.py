@@ -113,6 +113,28 @@ class CheckReport:
     # the quality screen of the duty's records (sim.loads.quality.ScreenSet.to_json), its text
     quality: Mapping[str, Any] | None = None
     quality_text: str = ""
+    # a what-if check: what the checked drivetrain changes against the simulated one,
+    # [{"joint", "key", "simulated", "checked", "record"}]; empty when they agree
+    what_if: tuple[Mapping[str, Any], ...] = ()
+
+
+WHAT_IF_NOTE = ("WHAT-IF: the drivetrain checked differs from the one the duty was simulated "
+                "with; the duty was NOT re-simulated, so loads that depend on the changed values "
+                "(peak torques, saturation, inertia effects) are those of the simulated "
+                "drivetrain")
+
+
+def what_if_lines(report: CheckReport, limit: int = 12) -> list[str]:
+    """The what-if banner and its differences as text lines (none when not a what-if)."""
+    if not report.what_if:
+        return []
+    lines = [WHAT_IF_NOTE + ":"]
+    for d in report.what_if[:limit]:
+        lines.append(f"  {d['joint']} {d['key']}: simulated {d['simulated']:.6g}, checked "
+                     f"{d['checked']:.6g}")
+    if len(report.what_if) > limit:
+        lines.append(f"  ... and {len(report.what_if) - limit} more differences (JSON: what_if)")
+    return lines
 
 
 def add_section(report: CheckReport, joint: str, section: Section) -> CheckReport:
@@ -157,6 +179,8 @@ def to_json_dict(report: CheckReport) -> dict[str, Any]:
         "not_modelled": list(report.not_modelled),
         "cautions": list(report.cautions),
         **({"quality": dict(report.quality)} if report.quality is not None else {}),
+        **({"what_if": {"note": WHAT_IF_NOTE, "differences": [dict(d) for d in report.what_if]}}
+           if report.what_if else {}),
     }
     return _finite(data)
 
@@ -178,7 +202,9 @@ def _fmt(v: Any, fmt: str) -> str:
 
 def render_table(report: CheckReport) -> str:
     """A plain-text table: one row per joint and section, then the notes and cautions."""
-    lines: list[str] = []
+    lines: list[str] = what_if_lines(report)
+    if lines:
+        lines.append("")
     names = sorted({n for secs in report.joints.values() for n in secs})
     for name in names:
         rows = [(j, secs[name]) for j, secs in report.joints.items() if name in secs]
@@ -205,5 +231,6 @@ def render_table(report: CheckReport) -> str:
         lines.append(report.quality_text)
     lines.extend(report.cautions)
     overall = "PASS" if exit_code(report) == 0 else "FAIL"
-    lines.append(f"Overall: {overall}")
+    lines.append(f"Overall: {overall}" + (" (WHAT-IF: duty not re-simulated)"
+                                          if report.what_if else ""))
     return "\n".join(lines) + "\n"

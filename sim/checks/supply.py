@@ -27,33 +27,16 @@ one motor's regeneration feeds another before any reaches the pack.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
-from sim.core.config import Field, validate
+from sim.core.config import validate
+from sim.parts.drivetrain import MODULATIONS, SUPPLY_SPEC, line_voltage_factor
+from sim.parts.motor_constants import CURRENT_CONVENTIONS
 
-CURRENT_CONVENTIONS = ("dc_equivalent", "phase_peak", "phase_rms", "power_invariant")
-MODULATIONS = ("svpwm", "six_step", "sinusoidal")
-
-SUPPLY_SPEC = {
-    "bus_voltage_v": Field(float, "open-circuit bus voltage, V", required=True, min=0.0,
-                           min_inclusive=False),
-    "current_limit_a": Field(float, "driver current limit per motor, A", required=True,
-                             min=0.0, min_inclusive=False),
-    "current_limit_convention": Field(str, default="dc_equivalent",
-                                      choices=CURRENT_CONVENTIONS),
-    "modulation": Field(str, default="svpwm", choices=MODULATIONS),
-    "inverter_efficiency": Field(float, "fraction", required=True, min=0.0, max=1.0,
-                                 min_inclusive=False),
-    "regeneration_absorbed": Field(bool, required=True),
-    "cell_count": Field(int, "cells in series", default=1, min=1),
-    "parallel_count": Field(int, "parallel strings", default=1, min=1),
-    "cell_internal_resistance_ohm": Field(float, "ohm per cell", default=0.0, min=0.0),
-    "auxiliary_power_w": Field(float, "W", default=0.0, min=0.0),
-}
+__all__ = ["CURRENT_CONVENTIONS", "MODULATIONS", "SUPPLY_SPEC", "Supply", "load_supply"]
 
 
 @dataclass(frozen=True)
@@ -80,7 +63,7 @@ class Supply:
     def line_voltage_factor(self) -> float:
         """Largest line-to-line peak voltage per volt of bus: 1 (SVPWM, six-step) or sqrt(3)/2
         (sine-triangle PWM without third-harmonic injection, phase amplitude V_dc/2)."""
-        return math.sqrt(3.0) / 2.0 if self.modulation == "sinusoidal" else 1.0
+        return line_voltage_factor(self.modulation)
 
 
 def load_supply(table: dict[str, Any] | None, file: str | None) -> Supply:

@@ -1,4 +1,4 @@
-"""``gaitload check RECORD_OR_MIX --drivetrain FILE``: reducers, motors and supply against the duty.
+"""``gaitload check RECORD_OR_MIX [--drivetrain FILE [--what-if]]``: parts against the duty.
 
 Parses the arguments, calls :func:`sim.checks.drivetrain_check.check_drivetrain` (the duty of
 a run record or a usage mix against the drivetrain's reducer and motor parts and its supply)
@@ -16,7 +16,7 @@ from pathlib import Path
 
 from sim.checks.drivetrain_check import check_drivetrain, write_disc_profiles
 from sim.checks.reducer import CheckSettings
-from sim.checks.report import exit_code, render_table, to_json
+from sim.checks.report import exit_code, render_table, to_json, what_if_lines
 from sim.core.atomic import output_batch
 from sim.core.config import check_option_number
 from sim.core.errors import InputError
@@ -28,8 +28,14 @@ HELP = "check reducers, motors and supply against the spectra"
 def add_arguments(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("duty", metavar="RECORD_OR_MIX",
                         help="a run record (.h5) or a usage mix (.toml)")
-    parser.add_argument("--drivetrain", required=True, metavar="FILE",
-                        help="drivetrain file assigning reducer (and motor) parts to joints")
+    parser.add_argument("--drivetrain", metavar="FILE",
+                        help="drivetrain file to check against (default: the drivetrain the "
+                             "record was simulated with, which it stores); one that differs "
+                             "from the simulated one needs --what-if")
+    parser.add_argument("--what-if", action="store_true",
+                        help="accept a --drivetrain that differs from the simulated one; every "
+                             "output then says what differs and that the duty was not "
+                             "re-simulated")
     parser.add_argument("--json", action="store_true", help="print only JSON on stdout")
     parser.add_argument("--plot", metavar="DIR",
                         help="write figures and cycloid disc profiles (CSV, SVG) to DIR")
@@ -63,13 +69,20 @@ def settings_from_args(args: argparse.Namespace) -> CheckSettings:
 def execute(args: argparse.Namespace) -> int:
     if args.plot:
         check_output_dir(args.plot, "--plot")
+    if args.what_if and not args.drivetrain:
+        raise InputError("--what-if", None, "a --drivetrain FILE to compare with the simulated "
+                         "drivetrain")
     result = check_drivetrain(args.duty, args.drivetrain, settings_from_args(args),
-                              args.mission_h, args.allow_failed)
+                              args.mission_h, args.allow_failed, args.what_if)
     if args.plot:
         from sim.figures.check import plot_utilisation
+        from sim.figures.common import banner
 
         out = Path(args.plot)
-        with output_batch():  # every figure and profile, or none
+        text = ("WHAT-IF: drivetrain differs from the simulated one; duty NOT re-simulated ("
+                + ", ".join(sorted({d["key"] for d in result.report.what_if})) + ")"
+                if result.report.what_if else None)
+        with output_batch(), banner(text):  # every figure and profile, or none
             plot_utilisation(result.report, out / "reducer_utilisation.svg")
             write_disc_profiles(result.drivetrain, out)
             if result.motors is not None:
@@ -78,6 +91,8 @@ def execute(args: argparse.Namespace) -> int:
                 plot_all(result.motors, out)
     if args.json:
         print(to_json(result.report), end="")
+        for line in what_if_lines(result.report):
+            print(line, file=sys.stderr)
         for line in result.quality.flag_lines() if result.quality else []:
             print(line, file=sys.stderr)
     else:

@@ -13,6 +13,7 @@ import argparse
 import json
 import sys
 from pathlib import Path
+from typing import Any
 
 HELP = "simulate a scenario and write an HDF5 run record"
 
@@ -29,7 +30,12 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                         "robot. (robot.leg.thigh_length_m=0.24); repeatable")
     p.add_argument("--json", action="store_true", help="print only a JSON summary on stdout")
     p.add_argument("--strict", action="store_true",
-                   help="exit 1 when the record fails the quality screen")
+                   help="exit 1 when the record fails the quality screen (or, with "
+                        "--dt-study, when a figure changes beyond the limit)")
+    p.add_argument("--dt-study", action="store_true",
+                   help="also run at half the time step (record <OUT>_half_step.h5) and report "
+                        "per joint the change in peak, RMS and equivalent torque "
+                        "(sim/sweeps/timestep.py)")
 
 
 def format_table(result) -> str:
@@ -38,6 +44,34 @@ def format_table(result) -> str:
         lines.append(f"{j:<9} {v['peak_torque_nm']:>9.3f} {v['rms_torque_nm']:>9.3f} "
                      f"{v['peak_speed_rad_s']:>11.3f} {v['saturated_s']:>12.3f}")
     return "\n".join(lines)
+
+
+def drive_summary(scn: Any) -> dict[str, Any]:
+    """What the run simulated of its drivetrain: the file, the scenario's drive options and
+    what the simulation leaves out (the record stores the same)."""
+    dt = scn.model.drivetrain
+    drive = scn.data["drive"]
+    return {"file": dt.file, "rotor_inertia": drive["rotor_inertia"],
+            "losses": bool(drive["losses"]), "not_simulated": list(dt.notes),
+            "overrides": list(dt.overrides)}
+
+
+def _dt_study(args: argparse.Namespace, out: Path) -> int:
+    from sim.sweeps.timestep import step_study
+
+    study = step_study(args.scenario, args.overrides, out, progress=not args.json)
+    if args.json:
+        print(json.dumps(study.to_json(), indent=2, allow_nan=False))
+    else:
+        print(study.to_text())
+        print(CAUTION)
+    if any(s in ("fell", "diverged") for s in study.status):
+        print(f"gaitload run: a step-study run did not complete ({', '.join(study.status)}); "
+              "records kept for inspection", file=sys.stderr)
+        return 3
+    for j, f, c in study.flagged if args.json else []:
+        print(f"STEP STUDY FLAGGED {j} {f} {100 * c:+.1f}%", file=sys.stderr)
+    return 1 if args.strict and study.flagged else 0
 
 
 def execute(args: argparse.Namespace) -> int:
@@ -49,13 +83,15 @@ def execute(args: argparse.Namespace) -> int:
     scn = load_scenario(args.scenario, args.overrides)  # bad input fails before any output
     from sim.engine.runner import run
 
+    if args.dt_study:
+        return _dt_study(args, out)
     result = run(scn, out, progress=not args.json)
     from sim.loads.quality import screen_records
 
     screen = screen_records([result.record])
     if args.json:
-        print(json.dumps({**result.to_json(), "quality": screen.to_json()}, indent=2,
-                         allow_nan=False))
+        print(json.dumps({**result.to_json(), "quality": screen.to_json(),
+                          "drivetrain": drive_summary(scn)}, indent=2, allow_nan=False))
         for line in screen.flag_lines():
             print(line, file=sys.stderr)
     else:
@@ -63,6 +99,11 @@ def execute(args: argparse.Namespace) -> int:
         print(f"record: {result.record}  status: {result.status}  "
               f"mass: {result.total_mass_kg:.2f} kg  simulated: {reached:.6g} s of "
               f"{scn.duration_s:g} s planned")
+        d = drive_summary(scn)
+        print(f"drivetrain: {d['file']}  rotor inertia: {d['rotor_inertia']}  "
+              f"reducer losses: {'on' if d['losses'] else 'off'}")
+        for note in d["not_simulated"]:
+            print(f"  not simulated: {note}")
         print(format_table(result))
         print(screen.to_text())
         print(CAUTION)

@@ -16,7 +16,7 @@ Rotor inertia (scenario key ``drive.rotor_inertia``)
     extra links, no constraints; see :mod:`sim.robot.urdf` for what this gets wrong).
     ``"off"``: the rigid joint model.
 
-Reducer friction (actuator keys in the model file, all at the joint output)
+Reducer friction (from the reducer part files, :mod:`sim.parts.drivetrain`; at the output)
     Coulomb ``tau_c``: a velocity motor with target speed 0 and maximum torque ``tau_c``. It
     is solved implicitly with the contacts, so it gives true stiction: a joint loaded below
     ``tau_c`` stays at rest, above it slides with a friction torque of exactly ``tau_c``.
@@ -39,9 +39,8 @@ losses are simulated) is the torque the reducer output applies to the joint::
 
 with ``tau_fric`` the friction motor's torque on the joint (negative when qd > 0).
 
-Backlash and an elastic mesh (actuator keys ``backlash_rad``, ``mesh_stiffness_nm_rad``,
-``mesh_damping_nm_s_rad`` in the model file, the one place they are set; the reducer part
-files' ``backlash_rad`` is a rating that the checks report, not read here)
+Backlash and an elastic mesh (reducer part keys ``backlash_rad``, ``mesh_stiffness_nm_rad``,
+``mesh_damping_nm_s_rad``; the backlash is simulated when the part gives a mesh stiffness)
     A joint whose mesh stiffness ``k_m`` is > 0 gets a motor side of its own: the rotor angle
     ``q_m`` and speed ``w_m`` referred to the output (rotor angle / N, relative to the parent
     link, the same zero as the joint angle), inertia ``J_m = N^2 J_r``, driven by the
@@ -104,7 +103,7 @@ import numpy as np
 
 from sim import JOINT_NAMES
 from sim.core.errors import InputError
-from sim.robot.model import RobotModel, actuator_key
+from sim.robot.model import RobotModel
 from sim.robot.urdf import ROTORS, rotor_joint_name
 
 _AXIS = {"abad": [1.0, 0.0, 0.0], "hip": [0.0, 1.0, 0.0], "knee": [0.0, 1.0, 0.0]}
@@ -192,7 +191,6 @@ def check_mesh(model: RobotModel, options: DriveOptions, dt: float, scenario_fil
                          "'approximate' or 'exact' when the model's reducer mesh is elastic "
                          f"(mesh_stiffness_nm_rad > 0 on {', '.join(joints)}: its motor side "
                          "carries the rotor inertia)", "off")
-    table = model.data["actuator"]
     j_out = lightest_output_inertia(model, joints)
     for j in joints:
         a = model.actuators[j]
@@ -210,8 +208,10 @@ def check_mesh(model: RobotModel, options: DriveOptions, dt: float, scenario_fil
         else:  # the damping alone is too much for this step
             c_max = MESH_STEP_LIMIT * j_red / (2.0 * dt)
             key, got, fix = "mesh_damping_nm_s_rad", c, f"mesh_damping_nm_s_rad < {c_max:.4g} N m s/rad"
+        part = (model.drivetrain.part(j, "reducer").source if model.drivetrain is not None
+                else model.file)
         raise InputError(
-            model.file, actuator_key(table, j, key),
+            part, key,
             f"a mesh the time step can integrate: for {j}, (k dt^2 + 2 c dt) / J = {x:.3g} at "
             f"time_step_s = {dt:g} s ({scenario_file}), allowed <= {MESH_STEP_LIMIT:g}, with J = "
             f"{j_red:.3g} kg m^2 from the motor side N^2 J_r = {j_m:.3g} and the lightest joint "

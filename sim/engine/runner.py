@@ -21,6 +21,7 @@ name before the loop (no per-step attribute lookups, no numpy per step; see
 
 from __future__ import annotations
 
+import json
 import os
 import sys
 from pathlib import Path
@@ -99,6 +100,10 @@ def _record_attrs(scn: Scenario, eng: Engine, start_step: int) -> dict[str, Any]
     return {
         "tool_version": __version__, "scenario_toml": scn.to_toml(),
         "model_toml": scn.model.to_toml(), "time_step_s": dt,
+        "drivetrain_toml": scn.model.drivetrain.to_toml() if scn.model.drivetrain else "",
+        "drive_notes": list(scn.model.drivetrain.notes) if scn.model.drivetrain else [],
+        "control_gains_json": json.dumps({j: g.to_json() for j, g in scn.gains.items()},
+                                         sort_keys=True),
         "sample_period_s": dt * rec["decimation"],
         "decimation": rec["decimation"], "seed": d["seed"],
         "engine_version": f"pybullet {pb.getAPIVersion()}",
@@ -133,9 +138,9 @@ class _Loop:
         self.scn, self.eng, self.rec = scn, eng, rec
         self.dt = eng.dt
         self.clamp = make_clamp([Envelope.of(scn.model.actuators[j]) for j in JOINT_NAMES])
-        kinds = [j.split("_")[1] for j in JOINT_NAMES]
-        self.kp = [d["control"]["kp_nm_rad"][k] for k in kinds]
-        self.kd = [d["control"]["kd_nm_s_rad"][k] for k in kinds]
+        # per joint: derived from the robot unless the scenario writes them (sim/drive/gains.py)
+        self.kp = [scn.gains[j].kp_nm_rad for j in JOINT_NAMES]
+        self.kd = [scn.gains[j].kd_nm_s_rad for j in JOINT_NAMES]
         self.dec = d["record"]["decimation"]
         self.series = d["record"]["series"]
         self.start_step = round(d["record"]["start_s"] / self.dt)
@@ -180,9 +185,12 @@ class _Loop:
         f_ext = [0.0, 0.0, 0.0]
         last_contact, contact_at = self.last_contact, self.contact_at
         # control: tc_j = pd0_j + pd1_j lag - kp_j q_j - kd_j qd_j with
-        # pd0 = ff + kp q* + kd qd*, pd1 = kp qd* (fixed between control updates)
+        # pd0 = ff + kp q* + kd qd* at the last update and pd1 its rate of change over the
+        # last update period (kp qd* at a segment's first update), fixed between updates
         pd0 = [0.0] * 12
         pd1 = [0.0] * 12
+        prev0: list[float] | None = None  # the last update's command, for the hold
+        hold_command = self.scn.data["control"]["hold"] == "command"
         try:
             for i in range(nsteps):
                 st = getJS(r, J, physicsClientId=c)
@@ -200,14 +208,20 @@ class _Loop:
                                     last_contact if contact_at == i_global else None)
                     a_, b_, c_ = ctrl.update(i * dt, state)
                     qdes, qddes, ff = _flat12(a_), _flat12(b_), _flat12(c_)
-                    pd0 = [f + kp * x + kd * v for f, kp, x, kd, v
-                           in zip(ff, KPs, qdes, KDs, qddes, strict=True)]
-                    pd1 = [kp * v for kp, v in zip(KPs, qddes, strict=True)]
+                    new0 = [f + kp * x + kd * v for f, kp, x, kd, v
+                            in zip(ff, KPs, qdes, KDs, qddes, strict=True)]
+                    if prev0 is None or upd_every == 1 or not hold_command:
+                        pd1 = [kp * v for kp, v in zip(KPs, qddes, strict=True)]
+                    else:  # the whole command follows its last change (first-order hold):
+                        # holding kd qd* and the feed-forward between updates made the
+                        # torque step at every update, a ripple at the update rate
+                        pd1 = [(x - y) / dtu for x, y in zip(new0, prev0, strict=True)]
+                    pd0 = prev0 = new0
                     plan = [1.0 if f else 0.0 for f in ctrl.planned_stance()]
                     upd_i = i
                     if i_global >= start_step:
                         observe(state, ctrl, seg_sum, dtu)
-                # targets between updates follow the planned joint speed (first-order hold)
+                # between updates the command follows its last rate of change
                 lag = (i - upd_i) * dt
                 tc = [a + b * lag - kp * x - kd * v for a, b, kp, kd, x, v
                       in zip(pd0, pd1, KPs, KDs, q, qd, strict=True)]

@@ -10,6 +10,7 @@ from pathlib import Path
 
 from sim.checks.report import CheckReport
 from sim.core.atomic import save_figure_atomic
+from sim.figures.common import stamp
 
 
 def plot_utilisation(report: CheckReport, path: str | Path, section: str = "reducer") -> Path:
@@ -38,6 +39,7 @@ def plot_utilisation(report: CheckReport, path: str | Path, section: str = "redu
         ax.set_title(f"{section} limits per joint (estimates)")
         ax.legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.0, 1.0))
         fig.tight_layout()
+        stamp(fig)
         p = save_figure_atomic(fig, path, format="svg", metadata={"Date": None})
         plt.close(fig)
     return p

@@ -42,7 +42,7 @@ def plot_envelope(report: MotorReport, joint: str, path: str | Path, record: int
                          norm=_lognorm(shown))
     fig.colorbar(mesh, ax=ax, label="time in bin, s")
     w = np.linspace(s_edges[0], s_edges[-1], 400)
-    t_lim = current_limit_torque_nm(motor, supply)
+    t_lim = current_limit_torque_nm(motor, supply, drive.current_limit_a)
     v_line = supply.bus_voltage_v * supply.line_voltage_factor
     peak = rec.joints[joint].winding_peak_c
     for temp, style, label in ((20.0, "-", "envelope at 20 C"),

@@ -18,47 +18,38 @@ import numpy as np
 from sim import JOINT_KINDS, JOINT_NAMES, LEGS
 from sim.core.config import Field, dump_toml, load_toml, set_dotted, validate
 from sim.core.errors import InputError
+from sim.parts.drivetrain import ResolvedDrivetrain, resolve_drivetrain
 from sim.robot.inertia import MassProps, box, combine, cylinder, sphere
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
 NONNEG: dict[str, Any] = {"min": 0.0}
 
 ACTUATOR_SPEC: dict[str, Any] = {
-    "gear_ratio": Field(float, "reducer ratio, motor turns per joint turn", required=True,
-                        min=1.0),
-    "rotor_inertia_kg_m2": Field(float, "motor rotor inertia about its axis", required=True,
-                                 **NONNEG),
-    "torque_constant_nm_a": Field(float, "motor torque per ampere, DC-equivalent convention "
-                                  "(equals the line-to-line peak back-EMF constant in V s/rad)",
-                                  required=True, **POS),
-    "current_limit_a": Field(float, "driver current limit, same convention", required=True, **POS),
-    "phase_resistance_ohm": Field(float, "winding resistance per phase (star)", required=True,
-                                  **POS),
-    "bus_voltage_v": Field(float, "DC bus voltage at the driver", required=True, **POS),
     "mass_kg": Field(float, "actuator mass lumped at the joint", required=True, **NONNEG),
     "housing_radius_m": Field(float, "actuator housing radius (solid cylinder for inertia)",
                               default=0.04, **POS),
     "housing_length_m": Field(float, "actuator housing length along the joint axis",
                               default=0.04, **POS),
-    # reducer losses in the dynamics (optional; the defaults keep a lossless reducer)
-    "friction_coulomb_nm": Field(float, "reducer Coulomb friction torque at the output",
-                                 default=0.0, min=0.0),
-    "friction_viscous_nm_s_rad": Field(float, "reducer viscous friction at the output",
-                                       default=0.0, min=0.0),
-    "efficiency_forward": Field(float, "reducer efficiency when the motor drives the load",
-                                default=1.0, min=0.05, max=1.0),
-    "efficiency_back": Field(float, "reducer efficiency when the load drives the motor "
-                             "(motor-side power / output power)", default=1.0, min=0.05,
-                             max=1.0),
-    # reducer backlash and mesh compliance in the dynamics (optional; sim/drive/dynamics.py): the
-    # defaults keep a rigid mesh without lash
-    "backlash_rad": Field(float, "total lost motion of the reducer at the output (the gap "
-                          "width)", default=0.0, min=0.0),
-    "mesh_stiffness_nm_rad": Field(float, "torsional stiffness of the reducer at the output "
-                                   "once the lash is closed; 0 = rigid (needed > 0 for "
-                                   "backlash)", default=0.0, min=0.0),
-    "mesh_damping_nm_s_rad": Field(float, "damping of the closed mesh at the output",
-                                   default=0.0, min=0.0),
+}
+
+# keys an [actuator.*] table used to hold; they now live in the part files of the drivetrain
+MOVED_TO_PARTS = {
+    "gear_ratio": "the reducer part's ratio (or its geometry)",
+    "rotor_inertia_kg_m2": "the motor part's rotor_inertia_kg_m2 (plus the reducer's "
+                           "input_inertia_kg_m2)",
+    "torque_constant_nm_a": "the motor part's speed_constant_rpm_per_v or "
+                            "torque_constant_nm_per_a",
+    "current_limit_a": "the drivetrain's supply.current_limit_a or a [[joint]] current_limit_a",
+    "phase_resistance_ohm": "the motor part's phase_resistance_ohm_20c",
+    "bus_voltage_v": "the drivetrain's supply.bus_voltage_v",
+    "friction_coulomb_nm": "the reducer part's output_friction_torque_nm and "
+                           "input_drag_torque_nm",
+    "friction_viscous_nm_s_rad": "the reducer part's viscous_drag_nm_s_rad",
+    "efficiency_forward": "the reducer part's efficiency_forward",
+    "efficiency_back": "the reducer part's efficiency_back",
+    "backlash_rad": "the reducer part's backlash_rad",
+    "mesh_stiffness_nm_rad": "the reducer part's mesh_stiffness_nm_rad",
+    "mesh_damping_nm_s_rad": "the reducer part's mesh_damping_nm_s_rad",
 }
 
 
@@ -70,6 +61,8 @@ def _pair(lo_max: float | None = None) -> Field:
 
 MODEL_SPEC: dict[str, Any] = {
     "name": Field(str, "model name", required=True),
+    "drivetrain": Field(str, "drivetrain file (which reducer and motor part drive each joint, "
+                        "and the supply), relative to this model file", required=True),
     "description": Field(str, "free text", default=""),
     "body": {
         "size_m": Field(list, "[length x, width y, height z] of the body box", required=True,
@@ -106,14 +99,16 @@ MODEL_SPEC: dict[str, Any] = {
         "foot_y_m": Field(float, "foot further out than the thigh plane", default=0.0),
     },
     "joint_range_rad": {k: _pair() for k in JOINT_KINDS},
-    "actuator": Field(dict, "per joint kind (abad, hip, knee), optionally per joint",
-                      required=True),
+    "actuator": Field(dict, "actuator mass and housing per joint kind (abad, hip, knee), "
+                      "optionally per joint", required=True),
 }
 
 
 @dataclass(frozen=True)
 class Actuator:
-    """One joint's actuator (SI). Torque constant is DC-equivalent: Kt = Ke (V s/rad)."""
+    """One joint's actuator (SI) as simulated: mass and housing from the model file, the rest
+    from the drivetrain's parts (:data:`sim.parts.drivetrain.SIM_KEYS`). Torque constant is
+    DC-equivalent: Kt = Ke (V s/rad)."""
 
     gear_ratio: float
     rotor_inertia_kg_m2: float
@@ -166,6 +161,7 @@ class RobotModel:
     data: dict[str, Any]
     file: str
     actuators: dict[str, Actuator] = field(default_factory=dict)
+    drivetrain: ResolvedDrivetrain | None = None
 
     # convenient accessors -------------------------------------------------------------------
     @property
@@ -253,12 +249,18 @@ def _nonzero(mp: MassProps) -> MassProps:
     return MassProps(1e-4, mp.com_m, np.eye(3) * 1e-8)  # massless bracket placeholder
 
 
-def _actuators(data: dict[str, Any], file: str) -> dict[str, Actuator]:
+def _actuators(data: dict[str, Any], file: str, drive: ResolvedDrivetrain
+               ) -> dict[str, Actuator]:
     table = data["actuator"]
     for key in table:
         if key not in JOINT_KINDS and key not in JOINT_NAMES:
             raise InputError(file, f"actuator.{key}",
                              "a joint kind (abad, hip, knee) or a joint name such as fl_knee")
+        for k in table[key] if isinstance(table[key], dict) else ():
+            if k in MOVED_TO_PARTS:
+                raise InputError(file, f"actuator.{key}.{k}",
+                                 f"no {k} here: it moved to {MOVED_TO_PARTS[k]}, in the part "
+                                 f"files the drivetrain {drive.file} names (docs/drivetrain.md)")
     kinds = {}
     for kind in JOINT_KINDS:
         if kind not in table:
@@ -272,53 +274,81 @@ def _actuators(data: dict[str, Any], file: str) -> dict[str, Actuator]:
         if j in table:
             over = validate(table[j], partial, file, f"actuator.{j}.")
             vals.update({k: v for k, v in over.items() if v is not None})
-        out[j] = Actuator(**vals)
-        _check_mesh(out[j], j, table, file)
+        out[j] = Actuator(**vals, **drive.values[j])
+        _check_mesh(out[j], j, drive)
     return out
 
 
-def actuator_key(table: dict[str, Any], joint: str, key: str) -> str:
-    """Dotted key under which ``joint``'s actuator value ``key`` is set in ``table``
-    (the model's ``actuator`` table): the per-joint table if it gives the key, else the kind."""
-    if isinstance(table.get(joint), dict) and key in table[joint]:
-        return f"actuator.{joint}.{key}"
-    return f"actuator.{joint.split('_')[1]}.{key}"
+def actuator_key(model: RobotModel, joint: str, key: str) -> str:
+    """Where ``joint``'s simulated actuator value ``key`` comes from (part file and key), for
+    messages that name what to change."""
+    return model.drivetrain.value_source(joint, key) if model.drivetrain else key
 
 
-def _check_mesh(a: Actuator, joint: str, table: dict[str, Any], file: str) -> None:
-    """Backlash needs an elastic mesh to close it, and the mesh needs a motor-side inertia."""
-    if a.backlash_rad > 0 and not a.compliant_mesh:
-        raise InputError(file, actuator_key(table, joint, "mesh_stiffness_nm_rad"),
-                         f"a mesh stiffness > 0 for {joint}, whose backlash_rad is "
-                         f"{a.backlash_rad:g} (the lash is closed by an elastic mesh; "
-                         "see docs/dynamics.md)", a.mesh_stiffness_nm_rad)
+def _check_mesh(a: Actuator, joint: str, drive: ResolvedDrivetrain) -> None:
+    """Mesh damping needs an elastic mesh, and the mesh needs a motor-side inertia."""
+    red = drive.part(joint, "reducer").source
     if a.mesh_damping_nm_s_rad > 0 and not a.compliant_mesh:
-        raise InputError(file, actuator_key(table, joint, "mesh_stiffness_nm_rad"),
+        raise InputError(red, "mesh_stiffness_nm_rad",
                          f"a mesh stiffness > 0 for {joint}, whose mesh_damping_nm_s_rad is "
                          f"{a.mesh_damping_nm_s_rad:g} (damping acts only in an elastic mesh; "
                          "see docs/dynamics.md)", a.mesh_stiffness_nm_rad)
     if a.compliant_mesh and a.rotor_inertia_kg_m2 <= 0:
-        raise InputError(file, actuator_key(table, joint, "rotor_inertia_kg_m2"),
+        raise InputError(drive.part(joint, "motor").source, "rotor_inertia_kg_m2",
                          f"a rotor inertia > 0 for {joint}, whose reducer mesh is elastic "
                          "(the motor side of the mesh needs an inertia)", a.rotor_inertia_kg_m2)
 
 
-def model_from_data(data: dict[str, Any], file: str) -> RobotModel:
-    """Validate raw TOML content and return the model, or raise :class:`InputError`."""
+def model_from_data(data: dict[str, Any], file: str,
+                    part_overrides: dict[str, Any] | None = None,
+                    drivetrain: ResolvedDrivetrain | None = None) -> RobotModel:
+    """Validate raw TOML content and return the model, or raise :class:`InputError`.
+
+    The drivetrain the model names (relative to ``file``) is resolved with ``part_overrides``
+    (dotted keys after ``robot.parts.``; :mod:`sim.parts.drivetrain`), unless ``drivetrain``
+    gives it already resolved (a record's ``drivetrain_toml``)."""
     values = validate(data, MODEL_SPEC, file)
     values["actuator"] = data["actuator"]
-    acts = _actuators(values, file)
-    model = RobotModel(values, file, acts)
+    if drivetrain is not None:
+        drive = drivetrain
+    else:
+        rel = values["drivetrain"]
+        path = Path(rel) if Path(rel).is_absolute() else Path(file).resolve().parent / rel
+        if not path.is_file():
+            raise InputError(file, "drivetrain", "an existing drivetrain file (relative to "
+                             "the model file)", rel)
+        drive = resolve_drivetrain(path, part_overrides)
+    acts = _actuators(values, file, drive)
+    model = RobotModel(values, file, acts, drive)
     _check_geometry(model)
     return model
 
 
+def model_from_texts(model_toml: str, drivetrain_toml: str, file: str) -> RobotModel:
+    """The model a record was simulated with, from its ``model_toml`` and ``drivetrain_toml``
+    attributes (``file`` names the record in messages)."""
+    import tomllib
+
+    from sim.parts.drivetrain import drivetrain_from_toml
+
+    try:
+        data = tomllib.loads(model_toml)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(file, "model_toml", f"the model as gaitload stores it ({exc})") from None
+    return model_from_data(data, file, drivetrain=drivetrain_from_toml(drivetrain_toml, file))
+
+
 def load_model(path: str | Path, overrides: dict[str, Any] | None = None) -> RobotModel:
-    """Read ``models/<name>.toml``; ``overrides`` maps dotted keys to values (``--set robot.``)."""
+    """Read ``models/<name>.toml``; ``overrides`` maps dotted keys to values (``--set robot.``
+    without the prefix); keys under ``parts.`` change the drivetrain's parts."""
     data = load_toml(path, "robot model file")
+    parts = {}
     for key, value in (overrides or {}).items():
-        set_dotted(data, key, value)
-    return model_from_data(data, str(path))
+        if key.startswith("parts."):
+            parts[key[len("parts."):]] = value
+        else:
+            set_dotted(data, key, value)
+    return model_from_data(data, str(path), parts)
 
 
 def _check_geometry(m: RobotModel) -> None:

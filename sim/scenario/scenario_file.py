@@ -10,7 +10,7 @@ are validated by :mod:`sim.scenario.segments`.
 from __future__ import annotations
 
 import copy
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -21,6 +21,8 @@ from sim.core.paths import label_problem
 from sim.robot.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
+
+WRITTEN_KP, WRITTEN_KD = 150.0, 3.0  # the written gains' defaults, N m/rad and N m s/rad
 
 SEGMENT_KINDS = ("stand", "stand_up", "sit_down", "walk", "trot", "lie", "jump", "bound",
                  "pronk")
@@ -35,18 +37,22 @@ SCENARIO_SPEC: dict[str, Any] = {
                           min=0.05, max=3.0),
         "slope_rad": Field(float, "ground slope, rising along +x (uphill when walking forward)",
                            default=0.0, min=-0.6, max=0.6),
-        "stiffness_n_m": Field(float, "contact stiffness per foot; 0 = rigid contact",
-                               default=0.0, min=0.0),
-        "damping_n_s_m": Field(float, "contact damping per foot (with stiffness)", default=0.0,
-                               min=0.0),
+        "stiffness_n_m": Field(float, "contact stiffness per foot; 0 = the engine's rigid "
+                               "contact; left out = rigid, or with pad = true a foot pad "
+                               "derived from the robot's weight (foot_pad_n_m)", min=0.0),
+        "pad": Field(bool, "a foot pad derived from the robot's weight where stiffness_n_m is "
+                     "left out", default=False),
+        "damping_n_s_m": Field(float, "contact damping per foot (with stiffness); left out "
+                               "with the stiffness = derived", min=0.0),
         "restitution": Field(float, "coefficient of restitution", default=0.0, min=0.0, max=1.0),
     },
     "drive": {
         "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
-                               "added to the child link) or 'exact' (geared rotor links)",
+                               "added to the child link) or 'exact' (geared rotor links, "
+                               "about 1.6 x the run time)",
                                default="off", choices=("off", "approximate", "exact")),
-        "losses": Field(bool, "simulate the reducer friction and efficiency of the model's "
-                        "actuator tables", default=True),
+        "losses": Field(bool, "simulate the reducer friction and efficiency of the "
+                        "drivetrain's reducer parts", default=True),
         "efficiency_band_rad_s": Field(float, "speed band around rest over which the forward "
                                        "and back-driven efficiency are blended", default=0.01,
                                        min=0.0, min_inclusive=False),
@@ -63,10 +69,21 @@ SCENARIO_SPEC: dict[str, Any] = {
                         min=0.0, min_inclusive=False),
     },
     "control": {
-        "kp_nm_rad": {k: Field(float, "joint stiffness", default=d, min=0.0)
-                      for k, d in zip(JOINT_KINDS, (150.0, 150.0, 150.0), strict=True)},
-        "kd_nm_s_rad": {k: Field(float, "joint damping", default=d, min=0.0)
-                        for k, d in zip(JOINT_KINDS, (3.0, 3.0, 3.0), strict=True)},
+        "gains": Field(str, "'written': the kp/kd tables (defaults 150 N m/rad, 3 N m s/rad); "
+                       "'derived': from the robot's joint inertias, bandwidth_hz and "
+                       "damping_ratio, where the tables leave a kind out (sim/drive/gains.py)",
+                       default="written", choices=("written", "derived")),
+        "hold": Field(str, "between control updates: 'targets' (targets follow the planned "
+                      "joint speed, feed-forward held) or 'command' (the whole command follows "
+                      "its last rate of change: no ripple at the update rate)",
+                      default="targets", choices=("targets", "command")),
+        "kp_nm_rad": {k: Field(float, "joint stiffness", min=0.0) for k in JOINT_KINDS},
+        "kd_nm_s_rad": {k: Field(float, "joint damping", min=0.0) for k in JOINT_KINDS},
+        "bandwidth_hz": Field(float, "target bandwidth of the derived joint gains; left out "
+                              "= 16 x the leg's pendulum frequency sqrt(g / L) / 2 pi, L = "
+                              "thigh + shank (12 Hz on the demo)", **POS),
+        "damping_ratio": Field(float, "damping ratio of the derived joint gains", default=1.0,
+                               **POS),
         "update_period_s": Field(float, "period of target and feed-forward updates",
                                  default=0.002, **POS),
     },
@@ -115,6 +132,7 @@ class Scenario:
     file: str
     model: RobotModel
     segments: tuple[dict[str, Any], ...]
+    gains: dict[str, Any] = field(default_factory=dict)  # joint -> sim.drive.gains.JointGains
 
     @property
     def time_step_s(self) -> float:
@@ -166,9 +184,13 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
     values["trip"] = validate_disturbances(values["trip"], TRIP_SPEC, "trip", str(path))
     robot_path = (path.parent / values["robot"]).resolve()
     mdata = load_toml(robot_path, "robot model file")
+    parts_over = {}
     for key, value in model_over.items():
-        set_dotted(mdata, key, value)
-    model = model_from_data(mdata, str(robot_path))
+        if key.startswith("parts."):
+            parts_over[key[len("parts."):]] = value
+        else:
+            set_dotted(mdata, key, value)
+    model = model_from_data(mdata, str(robot_path), parts_over)
     if values["record"]["start_s"] >= sum(s["duration_s"] for s in segments):
         raise InputError(str(path), "record.start_s", "a start before the end of the scenario")
     if values["control"]["update_period_s"] < values["time_step_s"] * 0.999:
@@ -176,7 +198,53 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
     from sim.drive.dynamics import DriveOptions, check_mesh  # the mesh must suit the time step
 
     check_mesh(model, DriveOptions.from_table(values["drive"]), values["time_step_s"], str(path))
-    return Scenario(values, str(path), model, tuple(segments))
+    _resolve_ground(values, model, str(path))
+    from sim.drive.gains import derived_bandwidth_hz, joint_gains
+    from sim.scenario.segments import stance_angles
+
+    ctl = values["control"]
+    if ctl["bandwidth_hz"] is None:
+        ctl["bandwidth_hz"] = round(derived_bandwidth_hz(model), 6)
+    if ctl["gains"] == "written":  # the tables, with their defaults where they leave a kind out
+        ctl["kp_nm_rad"] = {k: (WRITTEN_KP if v is None else v)
+                            for k, v in ctl["kp_nm_rad"].items()}
+        ctl["kd_nm_s_rad"] = {k: (WRITTEN_KD if v is None else v)
+                              for k, v in ctl["kd_nm_s_rad"].items()}
+    gains = joint_gains(model, stance_angles(model), values["time_step_s"],
+                        values["drive"]["rotor_inertia"] != "off", ctl["bandwidth_hz"],
+                        ctl["damping_ratio"], ctl["kp_nm_rad"], ctl["kd_nm_s_rad"])
+    return Scenario(values, str(path), model, tuple(segments), gains)
+
+
+PAD_DEFLECTION_M = 0.004  # static deflection of a foot pad under half the weight
+PAD_DAMPING_RATIO = 0.1
+
+
+def foot_pad_n_m(mass_kg: float) -> tuple[float, float]:
+    """A foot pad for a robot of ``mass_kg`` (payload included): stiffness per foot that
+    deflects ``PAD_DEFLECTION_M`` = 4 mm under half the weight (two feet down in a trot), and
+    the damping that gives a damping ratio of 0.1 on that half mass: ``k = m g / (2 d)``,
+    ``c = 2 zeta sqrt(k m / 2)``. Common practice: rubber feet of legged robots deflect a few
+    millimetres. A contact this soft lasts tens of steps, so its forces converge in the time
+    step, where the engine's rigid contact stops a foot in one step; the damping is low because
+    the engine's spring-damper contact applies ``c v`` the instant a foot touches (a larger
+    ratio made a one-step force spike at every touchdown: measured, docs/gaits.md)."""
+    k = mass_kg * 9.80665 / (2.0 * PAD_DEFLECTION_M)
+    return k, 2.0 * PAD_DAMPING_RATIO * (k * mass_kg / 2.0) ** 0.5
+
+
+def _resolve_ground(values: dict[str, Any], model: RobotModel, file: str) -> None:
+    g = values["ground"]
+    if g["stiffness_n_m"] is None and not g["pad"]:
+        g["stiffness_n_m"] = 0.0
+    if g["stiffness_n_m"] is None:
+        if g["damping_n_s_m"] is not None:
+            raise InputError(file, "ground.damping_n_s_m", "a ground.stiffness_n_m with it "
+                             "(left out, both are derived from the robot's weight)")
+        k, c = foot_pad_n_m(model.total_mass_kg + values["payload"]["mass_kg"])
+        g["stiffness_n_m"], g["damping_n_s_m"] = round(k, 3), round(c, 3)
+    else:
+        g["damping_n_s_m"] = 0.0 if g["damping_n_s_m"] is None else g["damping_n_s_m"]
 
 
 def _check_override_key(data: dict[str, Any], key: str) -> None:

@@ -85,8 +85,9 @@ def _gait_spec(period_s: float, duty: float, step_h: float, speed: float,
     }
     if walk:
         spec["body_shift_gain"] = Field(float, "share of the shift of the body toward the "
-                                        "centroid of the loaded feet", default=0.15, min=0.0,
-                                        max=2.0)
+                                        "centroid of the loaded feet (0: none; see "
+                                        "docs/gaits.md before raising it)", default=0.0,
+                                        min=0.0, max=2.0)
     return spec
 
 

@@ -40,9 +40,10 @@ from sim.sweeps.metrics import compute_metrics
 from sim.sweeps.providers import CaseContext
 from sim.sweeps.spec import Sweep
 
-# 2: with the quality screen of the record; 3: with the SHA-256 of the record's bytes, checked
-# before the case is reused (a truncated or edited record is rerun, not reused)
-CASE_FORMAT = "gaitload sweep case 3"
+# 2: with the quality screen of the record; 3: resolved drivetrain inputs; 4: with the SHA-256
+# of the record's bytes, checked before the case is reused (a truncated or edited record is
+# rerun, not reused)
+CASE_FORMAT = "gaitload sweep case 4"
 RECORD_NAME = "record.h5"
 FINAL_STATUSES = ("completed", "fell", "diverged", "bad_input", "infeasible")
 FAILED_STATUSES = ("fell", "diverged", "bad_input", "infeasible", "error")
@@ -95,6 +96,8 @@ def resolve_cases(sweep: Sweep) -> list[Case]:
         dt = sweep.drivetrain
         if "drivetrain" in assign:
             dt = (base_dir / assign["drivetrain"]).resolve()
+        if dt is not None:  # the drivetrain simulated (and checked: the record stores it)
+            overrides.append(f"robot.drivetrain={toml_value(str(dt))}")
         try:
             scn = load_scenario(sweep.scenario, overrides)
         except InputError as exc:
@@ -105,11 +108,14 @@ def resolve_cases(sweep: Sweep) -> list[Case]:
         sdata = copy.deepcopy(scn.data)
         sdata["robot"] = "model.toml"
         sdata["segment"] = [dict(s) for s in scn.segments]
-        inputs = {"scenario_toml": dump_toml(sdata), "model_toml": scn.model.to_toml(),
-                  "drivetrain_text": dt.read_text() if dt else None,
+        mdata = copy.deepcopy(scn.model.data)
+        mdata["drivetrain"] = "drivetrain.toml"  # the resolved drivetrain, parts inside
+        assert scn.model.drivetrain is not None
+        inputs = {"scenario_toml": dump_toml(sdata), "model_toml": dump_toml(mdata),
+                  "drivetrain_toml": scn.model.drivetrain.to_toml(),
                   "metrics": list(sweep.metrics)}
         key = case_key(inputs)
-        spec = dict(inputs, key=key, drivetrain=str(dt) if dt else None)
+        spec = dict(inputs, key=key)
         cases.append(Case(i, assign, key, spec))
     if cases and all(c.spec is None for c in cases) and first_error is not None:
         raise first_error
@@ -132,6 +138,7 @@ def run_case(spec: Mapping[str, Any], out_dir: str | None = None) -> dict[str, A
         t = Path(tmp)
         (t / "scenario.toml").write_text(spec["scenario_toml"])
         (t / "model.toml").write_text(spec["model_toml"])
+        (t / "drivetrain.toml").write_text(spec["drivetrain_toml"])
         try:
             scn = load_scenario(t / "scenario.toml")
         except InputError as exc:
@@ -161,7 +168,7 @@ def run_case(spec: Mapping[str, Any], out_dir: str | None = None) -> dict[str, A
             doc = dict(res.to_json())
             doc["total_mass_kg"] = res.total_mass_kg
             ctx = CaseContext(rec, doc, spec["scenario_toml"], spec["model_toml"],
-                              spec.get("drivetrain"))
+                              spec["drivetrain_toml"])
             try:
                 out["metrics"] = compute_metrics(spec["metrics"], ctx)
             except GaitloadError as exc:
@@ -253,8 +260,8 @@ def store_case(out_dir: Path, case: Case, res: Mapping[str, Any]) -> dict[str, A
            "record_sha256": file_sha256(d / RECORD_NAME) if has_record else None,
            "quality": res.get("quality"),
            "inputs": None if case.spec is None else {
-               k: case.spec[k] for k in ("scenario_toml", "model_toml", "drivetrain",
-                                         "metrics")}}
+               k: case.spec[k] for k in ("scenario_toml", "model_toml",
+                                         "drivetrain_toml", "metrics")}}
     write_bytes_atomic(d / "result.json", json_bytes(doc))
     return doc
 

@@ -1,7 +1,7 @@
 """Metric providers of a sweep: named sources of the numbers a sweep tabulates.
 
 Takes one completed case (:class:`CaseContext`: its record, run summary, resolved scenario and
-model TOML, drivetrain path) and gives a JSON-like document per provider; metric paths
+model and drivetrain TOML) and gives a JSON-like document per provider; metric paths
 ``<provider>.a.b.c`` (:mod:`.metrics`) address its numbers. Each provider declares the shape
 of its document (a *schema*) so metrics are validated before any case runs.
 
@@ -32,7 +32,13 @@ class CaseContext:
     run: Mapping[str, Any]  # RunResult.to_json() plus total_mass_kg
     scenario_toml: str
     model_toml: str
-    drivetrain: str | None  # absolute path of the drivetrain file, if any
+    drivetrain_toml: str  # the resolved drivetrain (sim.parts.drivetrain), parts inside
+
+    def model(self) -> Any:
+        """The case's resolved robot model (:class:`sim.robot.model.RobotModel`)."""
+        from sim.robot.model import model_from_texts
+
+        return model_from_texts(self.model_toml, self.drivetrain_toml, "resolved model")
 
 
 NUM = float  # a leaf of a provider schema: a number
@@ -87,28 +93,21 @@ RUN_SCHEMA: dict[str, Any] = {
 
 
 def _model_provider(ctx: CaseContext) -> Mapping[str, Any]:
-    import tomllib
-
-    from sim.robot.model import model_from_data
-
-    m = model_from_data(tomllib.loads(ctx.model_toml), "resolved model")
+    m = ctx.model()
     acts = {}
     for j, a in m.actuators.items():
         acts[j] = {"gear_ratio": a.gear_ratio, "peak_torque_nm": a.peak_torque_nm,
                    "no_load_speed_rad_s": a.no_load_speed_rad_s,
-                   # rotor inertia seen at the joint through an ideal reducer: N^2 J_rotor
+                   # rotor and reducer inertia seen at the joint: N^2 (J_rotor + J_in) + J_out
                    "reflected_inertia_kg_m2": a.gear_ratio ** 2 * a.rotor_inertia_kg_m2}
     return {"total_mass_kg": m.total_mass_kg, "actuators": acts}
 
 
 def _backdrive_provider(ctx: CaseContext) -> Mapping[str, Any]:
-    import tomllib
-
     from sim.drive.backdrive import report
-    from sim.robot.model import model_from_data
     from sim.scenario.segments import stance_angles
 
-    m = model_from_data(tomllib.loads(ctx.model_toml), "resolved model")
+    m = ctx.model()
     return report(m, stance_angles(m))
 
 
@@ -150,13 +149,13 @@ def _loads_provider(ctx: CaseContext) -> Mapping[str, Any]:
 
 
 def _check_provider(ctx: CaseContext) -> Mapping[str, Any]:
-    """``gaitload check RECORD --drivetrain FILE --json`` (default settings); a failed part
-    still gives its figures."""
+    """``gaitload check RECORD --json`` (default settings; the drivetrain the record was
+    simulated with); a failed part still gives its figures."""
     from sim.checks.drivetrain_check import check_drivetrain
     from sim.checks.report import to_json
 
     return _json_document("check", lambda: to_json(
-        check_drivetrain(str(ctx.record_path), str(ctx.drivetrain)).report))
+        check_drivetrain(str(ctx.record_path)).report))
 
 
 # JSON shapes of the loads and check commands (documented interfaces; ANY levels are checked
@@ -180,8 +179,7 @@ register_provider(MetricProvider("model", _model_provider, MODEL_SCHEMA,
 register_provider(MetricProvider("loads", _loads_provider, LOADS_SCHEMA,
                                  "duty spectra of the record (gaitload loads)"))
 register_provider(MetricProvider("check", _check_provider, CHECK_SCHEMA,
-                                 "reducer, motor and supply checks (gaitload check)",
-                                 needs_drivetrain=True))
+                                 "reducer, motor and supply checks (gaitload check)"))
 register_provider(MetricProvider("backdrive", _backdrive_provider, BACKDRIVE_SCHEMA,
                                  "back-drivability of the resolved model (sim.drive.backdrive)"))
 

@@ -13,7 +13,7 @@ Takes a sweep file (``scenarios/sweep_*.toml``) and gives a validated :class:`Sw
     keys = ["robot.leg.thigh_length_m", "robot.leg.shank_length_m"]   # varied together
     values = [[0.20, 0.24], [0.22, 0.22]]
     [[param]]
-    key = "robot.actuator.knee.gear_ratio"
+    key = "robot.parts.knee.reducer.ratio"
     start = 5.0
     stop = 11.0
     step = 2.0                                    # or num = 4
@@ -51,7 +51,8 @@ SWEEP_SPEC: dict[str, Any] = {
                       required=True),
     "set": Field(list, "fixed KEY=VALUE overrides applied to every case (as --set)",
                  default=[], item=str),
-    "drivetrain": Field(str, "drivetrain file, relative to this file (for check. metrics)",
+    "drivetrain": Field(str, "drivetrain file, relative to this file: simulated in every case "
+                        "instead of the model's (and so checked)",
                         default=""),
     "metrics": Field(list, "metric paths to tabulate, e.g. run.joints.*_knee.peak_torque_nm:max",
                      required=True, item=str),
@@ -343,6 +344,18 @@ def _check_param_key(key: str, base: Any, file: str, where: str,
         return
     expected = ("a key of the base scenario, or of its robot model under 'robot.' (as for "
                 "--set), that names a value")
+    if key == "robot.drivetrain":
+        return
+    if key.startswith("robot.parts."):
+        # a part value, part file or current limit (sim.parts.drivetrain); the value itself is
+        # validated when the case is resolved, with the part file it lands in
+        from sim.parts.drivetrain import split_overrides
+
+        try:
+            split_overrides({key[len("robot.parts."):]: 0.0})
+        except InputError as exc:
+            raise InputError(file, where, exc.expected, key) from None
+        return
     if key.startswith("robot."):
         parts = key[len("robot."):].split(".")
         if (len(parts) == 3 and parts[0] == "actuator"

@@ -17,11 +17,25 @@ Every control update:
    zero ground speed.
 4. Attitude feedback: all foot targets are mapped from H to the base frame through a tilt
    ``a = tilt* - attitude_gain (tilt - tilt*) - attitude_rate_gain_s omega`` rather than the
-   measured tilt. With zero gains the legs hold the body parallel to the plane of the feet; a
-   positive gain lengthens the legs on the side that has sunk. The same map is used for stance
-   and swing legs so the targets never jump at a phase change.
-5. A walk also shifts the body toward the centroid of the loaded feet (weights falling to
-   zero before lift-off), keeping the centre of mass over the support triangle.
+   measured tilt (the *feedback map*). With zero gains the legs hold the body parallel to the
+   plane of the feet; a positive gain lengthens the legs on the side that has sunk. The same
+   map is used for stance and swing legs so the targets never jump at a phase change; trot,
+   bound and pronk land their feet ``clear`` above the stance height and press them down over
+   the load ramp.
+5. The walk lands its feet on the *ground map* instead: through the measured tilt, with the
+   stance height moved onto the measured ground (``press`` into it). A foot's target blends
+   the two maps by its *feedback share*: 0 in swing, in stance the smaller of the load ramp and
+   the foot's planned load over half an equal share, changing no faster than the load ramp.
+   The feedback map lifts the feet on the high side of a tilted body and, for a body above
+   its height, every foot (by up to twice the error at the default gains); a landing foot, or
+   a foot the static distribution loads little (the front foot that has just landed when the
+   hind foot on its diagonal lifts: the centre of mass then lies near the other diagonal),
+   was held off the ground by it, and the walk's front feet landed 130-240 ms late
+   (tests/test_gaits.py). The walk's body shift toward the centroid of the loaded feet
+   (``body_shift_gain``, default 0) moves the body fore and aft at twice the step rate; at
+   the walk's step period its zero-moment point then swings several times as far as the
+   body (cart-table model, ``zmp = x - (h/g) x''``: a factor ``1 + h w^2 / g``, about 8 at
+   2.5 Hz and 0.3 m) and rocks the body, so it is off by default.
 6. The fused closed-form solver (:class:`sim.scenario.gaits.leg_solver.LegSolver`) gives the joint targets,
    the joint speeds and the feed-forward torques holding the weighted static force
    distribution over the stance feet (:func:`sim.scenario.gaits.stance_forces.distribute`).
@@ -65,7 +79,12 @@ class GaitController(SegmentController):
     needs_contacts = True
     min_update_period_s = 0.002
     lift: tuple[float, ...] = TROT_LIFT
-    clear = 0.0015  # m, touchdown clearance (see update)
+    clear = 0.0015  # m, touchdown clearance of the gaits that do not land on the ground map
+    # True: feet land, and carry little load, on the ground map (step 5 of the module
+    # docstring), aimed `press` (m) into the measured ground so they meet it despite the
+    # tracking lag of the joints
+    ground_landing = False
+    press = 0.001
     load_ramp = 0.15  # share of the stance over which a foot takes up / gives off its load
     shift_ramp = 0.2  # the same for the body shift of a walk
 
@@ -103,6 +122,8 @@ class GaitController(SegmentController):
         self.p_lo = [list(r) for r in self.nominal]
         self.swing = [False] * 4
         self.stance_now = [True] * 4
+        self.f_prev = [self.weight_n / 4.0] * 4  # N, planned foot forces of the last update
+        self.fb_prev = [1.0] * 4  # the feedback shares of the last update
         self.v_f = [0.0, 0.0]
         self.v0 = (0.0, 0.0)
         self.w0 = 0.0
@@ -129,6 +150,8 @@ class GaitController(SegmentController):
         self.shift = (0.0, 0.0)
         self.v_shift = (0.0, 0.0)
         self.swing = [False] * 4
+        self.f_prev = [self.weight_n / 4.0] * 4
+        self.fb_prev = [1.0] * 4
 
     def planned_stance(self) -> list[bool]:
         return self.stance_now
@@ -183,6 +206,14 @@ class GaitController(SegmentController):
         t_st = beta * T
         p, vel = self.p, [[0.0, 0.0, 0.0] for _ in range(4)]
         stance = [ph < beta for ph in phi]
+        ground = self.ground_landing
+        n_st = sum(stance)
+        f_half = 0.5 * self.weight_n / n_st if n_st else 1.0
+        # share of the feedback map in each foot's target (step 5 of the module docstring):
+        # in stance the smaller of the load ramp and the foot's planned load over half an
+        # equal share; 0 in swing (1 throughout without ground landing)
+        fb = load_weights(phi, beta, self.load_ramp) if ground else [1.0] * 4
+        clear = 0.0 if ground else self.clear
         for k in range(4):
             pk = p[k]
             if stance[k]:
@@ -190,13 +221,17 @@ class GaitController(SegmentController):
                 vy = -(vey + w_eff * pk[0])
                 pk[0] += vx * dt
                 pk[1] += vy * dt
-                # the foot lands touchdown_clearance above the stance height and is pressed
-                # down over the load ramp, so a sagging body does not make it land early
+                # without ground landing the foot lands `clear` above the stance height and
+                # is pressed down over the load ramp, so a sagging body does not make it land
+                # early
                 ss = phi[k] / (beta * self.load_ramp)
-                pk[2] = self.z_stance[k] + dz + (self.clear * (1.0 - smoothstep(ss))
+                pk[2] = self.z_stance[k] + dz + (clear * (1.0 - smoothstep(ss))
                                                  if ss < 1.0 else 0.0)
                 vel[k][0], vel[k][1] = vx, vy
                 self.swing[k] = False
+                fk = self.f_prev[k]
+                if ground and fk < f_half * fb[k]:
+                    fb[k] = fk / f_half
                 continue
             if not self.swing[k]:
                 self.p_lo[k] = list(pk)
@@ -205,12 +240,19 @@ class GaitController(SegmentController):
             hvx = vcx - wc * nom[1]
             hvy = vcy + wc * nom[0]
             ox, oy = touchdown_offset((hvx, hvy), (ex, ey), t_st, self.k_place)
-            p_td = (nom[0] + ox, nom[1] + oy, self.z_stance[k] + dz + self.clear)
+            p_td = (nom[0] + ox, nom[1] + oy, self.z_stance[k] + dz + clear)
             v_end = (-hvx * t_sw, -hvy * t_sw)
             ps, dps = swing_curve((phi[k] - beta) / (1.0 - beta), self.p_lo[k], p_td, v_end,
                                   v_end, self.h_step)
             p[k] = ps
             vel[k] = [dps[0] / t_sw, dps[1] / t_sw, dps[2] / t_sw]
+        if ground:
+            # the share changes at most at the rate of the load ramp, so a change of the
+            # support (another foot landing) does not make the target jump
+            step = dt / (self.load_ramp * beta * T) if dt > 0 else 1.0
+            fb = [min(o + step, max(o - step, f)) for f, o in zip(fb, self.fb_prev,
+                                                                   strict=True)]
+            self.fb_prev = fb
         self.stance_now = stance
         sx = sy_ = 0.0
         if self.shift_gain > 0:
@@ -230,6 +272,14 @@ class GaitController(SegmentController):
         # Ra = Ry(a_p) Rx(a_r) (sim.scenario.gaits.base.rot_rp) in floats
         cr, sr, cp, sp = math.cos(a_r), math.sin(a_r), math.cos(a_p), math.sin(a_p)
         Ra = [[cp, sp * sr, sp * cr], [0.0, cr, -sr], [-sp, cp * sr, cp * cr]]
+        # the ground map: through the measured tilt Rm = Ry(pitch) Rx(roll), with the
+        # stance height moved onto the measured ground (a foot centre on the ground lies
+        # base height less foot radius below the base origin in H): where a foot without its
+        # load goes, so that a landing foot meets the ground when the plan says and a foot
+        # the plan loads little stays on it
+        cr, sr, cp, sp = math.cos(roll), math.sin(roll), math.cos(pitch), math.sin(pitch)
+        Rm = [[cp, sp * sr, sp * cr], [0.0, cr, -sr], [-sp, cp * sr, cp * cr]]
+        z_ground = self.r_foot - state.base_position_list[2] - dz - self.press
         # static load over the stance feet (contacts relative to the COM, base frame)
         gn = math.sqrt(g_b[0] ** 2 + g_b[1] ** 2 + g_b[2] ** 2)
         up = [-g_b[0] / gn, -g_b[1] / gn, -g_b[2] / gn]
@@ -237,19 +287,35 @@ class GaitController(SegmentController):
         # contact point = foot centre - r_foot up, relative to the COM
         o0, o1, o2 = rf * up[0] + com[0], rf * up[1] + com[1], rf * up[2] + com[2]
         (r00, r01, r02), (r10, r11, r12), (r20, r21, r22) = Ra
+        (m00, m01, m02), (m10, m11, m12), (m20, m21, m22) = Rm
         p_b, v_b, cont = [], [], []
-        for pk, vk in zip(p, vel, strict=True):
-            X, Y, Z = pk[0] - sx, pk[1] - sy_, pk[2]
-            bx = r00 * X + r10 * Y + r20 * Z
-            by = r01 * X + r11 * Y + r21 * Z
-            bz = r02 * X + r12 * Y + r22 * Z
+        for k in range(4):
+            X, Y, Z = p[k][0] - sx, p[k][1] - sy_, p[k][2]
+            vX, vY, vZ = vel[k]
+            wf = fb[k]  # share of the feedback map
+            u = 1.0 - wf
+            bx = by = bz = vbx = vby = vbz = 0.0
+            if wf > 0.0:  # the feedback map
+                bx = wf * (r00 * X + r10 * Y + r20 * Z)
+                by = wf * (r01 * X + r11 * Y + r21 * Z)
+                bz = wf * (r02 * X + r12 * Y + r22 * Z)
+                vbx = wf * (r00 * vX + r10 * vY + r20 * vZ)
+                vby = wf * (r01 * vX + r11 * vY + r21 * vZ)
+                vbz = wf * (r02 * vX + r12 * vY + r22 * vZ)
+            if u > 0.0:  # the ground map
+                Zg = Z - self.z_stance[k] + z_ground
+                bx += u * (m00 * X + m10 * Y + m20 * Zg)
+                by += u * (m01 * X + m11 * Y + m21 * Zg)
+                bz += u * (m02 * X + m12 * Y + m22 * Zg)
+                vbx += u * (m00 * vX + m10 * vY + m20 * vZ)
+                vby += u * (m01 * vX + m11 * vY + m21 * vZ)
+                vbz += u * (m02 * vX + m12 * vY + m22 * vZ)
             p_b.append((bx, by, bz))
             cont.append((bx - o0, by - o1, bz - o2))
-            X, Y, Z = vk
-            v_b.append((r00 * X + r10 * Y + r20 * Z, r01 * X + r11 * Y + r21 * Z,
-                        r02 * X + r12 * Y + r22 * Z))
+            v_b.append((vbx, vby, vbz))
         forces = distribute(cont, self.weight_n * gn / 9.80665, up,
                             load_weights(phi, beta, self.load_ramp))
+        self.f_prev = [f[0] * up[0] + f[1] * up[1] + f[2] * up[2] for f in forces]
         return self.solver.solve(p_b, v_b, g_b, forces)  # three flat lists of 12
 
 
@@ -260,9 +326,11 @@ class TrotController(GaitController):
 
 
 class WalkController(GaitController):
-    """Lateral-sequence walk (hl, fl, hr, fr), one foot at a time, body shifted over support."""
+    """Lateral-sequence walk (hl, fl, hr, fr), one foot at a time; feet land on the ground
+    map."""
 
     lift = WALK_LIFT
+    ground_landing = True
 
 
 class BoundController(GaitController):
