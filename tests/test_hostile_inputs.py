@@ -26,16 +26,19 @@ from sim.commands.cli import main
 
 from .conftest import MODELS, SCENARIOS
 
-MODEL_TEXT = (MODELS / "fennec.toml").read_text()
-SCEN_TEXT = (SCENARIOS / "stand.toml").read_text().replace(
-    'robot = "../models/fennec.toml"', 'robot = "robot.toml"')
-DRIVETRAIN_TEXT = (MODELS / "drivetrain_demo.toml").read_text()
-PARTS = {p.name: p.read_text() for p in (MODELS / "parts").glob("*.toml")}
-
 
 def sub(text: str, old: str, new: str) -> str:
     assert text.count(old) >= 1, old
     return text.replace(old, new, 1)
+
+
+# the model names its drivetrain relative to itself: point it at the shipped one
+MODEL_TEXT = sub((MODELS / "fennec.toml").read_text(), 'drivetrain = "drivetrain_demo.toml"',
+                 f'drivetrain = "{MODELS / "drivetrain_demo.toml"}"')
+SCEN_TEXT = (SCENARIOS / "stand.toml").read_text().replace(
+    'robot = "../models/fennec.toml"', 'robot = "robot.toml"')
+DRIVETRAIN_TEXT = (MODELS / "drivetrain_demo.toml").read_text()
+PARTS = {p.name: p.read_text() for p in (MODELS / "parts").glob("*.toml")}
 
 
 @dataclass(frozen=True)
@@ -87,16 +90,14 @@ model_case("foot in millimetres", "foot_radius_m = 0.02", "foot_radius_m = 20.0"
 model_case("hips in millimetres", "x_m = 0.19", "x_m = 190.0", "hips.x_m", "millimetres")
 model_case("hip height in millimetres", "hip_height_m = 0.30", "hip_height_m = 300.0",
            "stance.hip_height_m", "millimetres")
-model_case("torque constant is a speed constant", "torque_constant_nm_a = 0.11937",
-           "torque_constant_nm_a = 90.0", "actuator.abad.torque_constant_nm_a", "rpm/V")
-model_case("current limit absurd", "current_limit_a = 30.0", "current_limit_a = 1e9",
-           "actuator.abad.current_limit_a", "plausible")
-model_case("integer beyond 64 bits", "gear_ratio = 7.0 ", "gear_ratio = 99999999999999999999999 ",
-           "actuator.abad.gear_ratio", "64 bits")
-model_case("rotor inertia as text", "rotor_inertia_kg_m2 = 6.5e-5",
-           'rotor_inertia_kg_m2 = "small"', "actuator.abad.rotor_inertia_kg_m2", "a number")
-model_case("bus voltage as a boolean", "bus_voltage_v = 24.0", "bus_voltage_v = true",
-           "actuator.abad.bus_voltage_v", "a number")
+model_case("integer beyond 64 bits", "mass_kg = 0.50", "mass_kg = 99999999999999999999999",
+           "actuator.abad.mass_kg", "64 bits")
+model_case("housing as text", "housing_length_m = 0.045", 'housing_length_m = "short"',
+           "actuator.abad.housing_length_m", "a number")
+model_case("housing as a boolean", "housing_radius_m = 0.045", "housing_radius_m = true",
+           "actuator.abad.housing_radius_m", "a number")
+model_case("drivetrain missing", f'drivetrain = "{MODELS / "drivetrain_demo.toml"}"',
+           'drivetrain = "none.toml"', "drivetrain", "an existing drivetrain file")
 model_case("actuator mass in grams", "mass_kg = 0.50", "mass_kg = 500.0",
            "actuator.abad.mass_kg", "grams")
 model_case("joint range in degrees", "knee = [-2.80, -0.30]", "knee = [-160.0, -17.0]",
@@ -110,8 +111,8 @@ model_case("missing stance height", "hip_height_m = 0.30", "", "stance.hip_heigh
            "present")
 model_case("bad choice", 'knee_actuator_at = "hip"', 'knee_actuator_at = "elbow"',
            "leg.knee_actuator_at", "one of")
-model_case("per-joint ratio below 1", "[actuator.knee]", "[actuator.fl_knee]\ngear_ratio = 0.5\n"
-           "\n[actuator.knee]", "actuator.fl_knee.gear_ratio", ">= 1")
+model_case("per-joint mass negative", "[actuator.knee]", "[actuator.fl_knee]\nmass_kg = -0.5\n"
+           "\n[actuator.knee]", "actuator.fl_knee.mass_kg", ">= 0")
 model_case("housing in millimetres", "housing_radius_m = 0.045", "housing_radius_m = 45.0",
            "actuator.abad.housing_radius_m", "millimetres")
 model_case("stance offset infinite", "foot_x_m = 0.0 ", "foot_x_m = inf ", "stance.foot_x_m",
@@ -119,11 +120,9 @@ model_case("stance offset infinite", "foot_x_m = 0.0 ", "foot_x_m = inf ", "stan
 model_case("description a number",
            'description = "invented demo quadruped, 15.5 kg, knees pointing backward"',
            "description = 1.0", "description", "a string")
-model_case("negative resistance", "phase_resistance_ohm = 0.16", "phase_resistance_ohm = -0.16",
-           "actuator.abad.phase_resistance_ohm", "> 0")
-model_case("friction absurd", "housing_length_m = 0.045\n\n[actuator.hip]",
-           "housing_length_m = 0.045\nfriction_coulomb_nm = 1e300\n\n[actuator.hip]",
-           "actuator.abad.friction_coulomb_nm", "plausible")
+model_case("housing absurd", "housing_length_m = 0.045\n\n[actuator.hip]",
+           "housing_length_m = 1e300\n\n[actuator.hip]", "actuator.abad.housing_length_m",
+           "plausible")
 model_case("table where a value goes", "mass_kg = 6.5 ", "mass_kg = {value = 6.5} ",
            "body.mass_kg", "a number")
 model_case("a list where text goes", 'name = "fennec"', 'name = ["fennec"]', "name", "a string")
@@ -164,8 +163,10 @@ scen_case("payload in grams", "mass_kg = 0.0 ", "mass_kg = 30000.0 ", *S, "paylo
           "grams")
 scen_case("payload position NaN", "mass_kg = 0.0 ", "mass_kg = 0.0\nposition_m = [0.0, nan, 0.0]",
           *S, "payload.position_m[1]", "finite")
-scen_case("gain infinite", "knee = 150.0", "knee = inf", *S, "control.kp_nm_rad.knee", "finite")
-scen_case("gain negative", "knee = 150.0", "knee = -150.0", *S, "control.kp_nm_rad.knee", ">= 0")
+scen_case("gain infinite", "[record]", "[control.kp_nm_rad]\nknee = inf\n\n[record]", *S,
+          "control.kp_nm_rad.knee", "finite")
+scen_case("gain negative", "[record]", "[control.kd_nm_s_rad]\nknee = -3.0\n\n[record]", *S,
+          "control.kd_nm_s_rad.knee", ">= 0")
 scen_case("update period in milliseconds", "update_period_s = 0.002", "update_period_s = 2.0",
           *S, "control.update_period_s", "milliseconds")
 scen_case("decimation zero", "decimation = 1 ", "decimation = 0 ", *S, "record.decimation",
@@ -227,8 +228,8 @@ set_case("no equals sign", "ground.friction", "--set", "KEY=VALUE")
 set_case("list of wrong length", "robot.body.size_m=[1.0, 2.0]", "body.size_m", "list of 3")
 set_case("seed beyond 64 bits", "seed=99999999999999999999999", "seed", "64 bits")
 set_case("float for an integer", "record.torque_bins=1e12", "record.torque_bins", "an integer")
-set_case("torque constant 90", "robot.actuator.knee.torque_constant_nm_a=90",
-         "actuator.knee.torque_constant_nm_a", "rpm/V")
+set_case("actuator mass in grams", "robot.actuator.knee.mass_kg=500",
+         "actuator.knee.mass_kg", "grams")
 set_case("unknown top key", "grund.x=1", "--set", "grund.x", "scenario key")
 set_case("value used as a table", "ground.friction.x=1", "--set", "'friction' to be a table")
 set_case("model height -inf", "robot.stance.hip_height_m=-inf", "stance.hip_height_m", "finite")
@@ -396,6 +397,12 @@ dt_case("cell resistance in milliohms", DT, "cell_internal_resistance_ohm = 0.00
         "plausible")
 dt_case("cell count beyond 64 bits", DT, "cell_count = 6", "cell_count = 99999999999999999999",
         "supply.cell_count", "64 bits")
+dt_case("supply current absurd", DT, "current_limit_a = 30.0", "current_limit_a = 1e9",
+        "supply.current_limit_a", "plausible")
+dt_case("speed constant given as a torque constant", MOTOR, "speed_constant_rpm_per_v = 80.0",
+        "speed_constant_rpm_per_v = 0.11937", "speed_constant_rpm_per_v", "N m/A")
+dt_case("motor resistance negative", MOTOR, "phase_resistance_ohm_20c = 0.16",
+        "phase_resistance_ohm_20c = -0.16", "phase_resistance_ohm_20c", "> 0")
 dt_case("motor speed constant NaN", MOTOR, "speed_constant_rpm_per_v = 80.0",
         "speed_constant_rpm_per_v = nan", "speed_constant_rpm_per_v", "finite")
 dt_case("ambient -500 C", MOTOR, "ambient_temp_c = 30.0", "ambient_temp_c = -500.0",
@@ -413,7 +420,7 @@ dt_case("motor peak torque in N mm", MOTOR, "peak_torque_nm = 4.0", "peak_torque
 dt_case("belt pitch in millimetres", BELT, "pitch_m = 0.005", "pitch_m = 5.0", "pitch_m",
         "millimetres")
 dt_case("belt teeth fractional", BELT, "driver_teeth = 15", "driver_teeth = 15.5",
-        "driver_teeth", "an integer")
+        "driver_teeth", "a whole number")
 dt_case("belt efficiency above 1", BELT, "efficiency_forward = 0.90",
         "efficiency_forward = 2.0", "efficiency_forward", "<= 1")
 dt_case("belt ratio against teeth", BELT, "ratio = 9.0 ", "ratio = 10.0 ", "ratio", "9")
@@ -716,7 +723,7 @@ TOML_VALUES = st.one_of(
 )
 MODEL_KEYS = [("body", "mass_kg = 6.5 "), ("leg", "thigh_length_m = 0.22"),
               ("body", "size_m = [0.46, 0.22, 0.10]"), ("stance", "hip_height_m = 0.30"),
-              ("actuator", "torque_constant_nm_a = 0.11937"), ("actuator", "gear_ratio = 7.0 "),
+              ("actuator", "mass_kg = 0.50"), ("actuator", "housing_radius_m = 0.045"),
               ("joint_range_rad", "knee = [-2.80, -0.30]")]
 
 

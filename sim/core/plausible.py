@@ -40,7 +40,7 @@ RANGES: tuple[tuple[str, float, float], ...] = (
     ("disc_mass_kg", 0.0, 100.0),
     # motors and drivers
     ("torque_constant_nm_a", 1e-4, 20.0), ("torque_constant_nm_per_a", 1e-4, 20.0),
-    ("speed_constant_rpm_per_v", 0.1, 1e5), ("current_limit_a", 0.0, 5000.0),
+    ("speed_constant_rpm_per_v", 1.0, 1e5), ("current_limit_a", 0.0, 5000.0),
     ("no_load_current_a", 0.0, 500.0), ("phase_resistance_ohm", 0.0, 1000.0),
     ("phase_resistance_ohm_20c", 0.0, 1000.0), ("bus_voltage_v", 0.0, 2000.0),
     ("rotor_inertia_kg_m2", 0.0, 10.0), ("input_inertia_kg_m2", 0.0, 10.0),
@@ -112,6 +112,10 @@ def unit_slip(key: str, value: float, lo: float, hi: float) -> str:
         return "it is below absolute zero (-273.15 C)"
     if name.endswith("_c") and _inside(value - 273.15, lo, hi):
         return "it looks like kelvin; the key is in degrees Celsius"
+    if name == "speed_constant_rpm_per_v" and 0 < value < lo:
+        kv = 60.0 / (2.0 * math.pi * value)
+        return (f"it looks like a torque constant in N m/A (that would be a speed constant of "
+                f"60 / (2 pi Kt) = {kv:.3g} rpm/V)")
     if name.endswith(("_nm_a", "_nm_per_a")) and value > hi:
         kt = 60.0 / (2.0 * math.pi * value)
         return (f"it looks like a speed constant in rpm/V (that would be a torque constant of "
