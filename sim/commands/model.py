@@ -12,6 +12,7 @@ from typing import Any
 from sim.core.atomic import write_text_atomic
 from sim.core.config import parse_override
 from sim.core.errors import InputError
+from sim.core.paths import check_output_file
 from sim.robot.model import load_model
 from sim.robot.urdf import build_urdf
 
@@ -43,6 +44,8 @@ def write_atomic(path: str | Path, text: str) -> Path:
 
 
 def execute(args: argparse.Namespace) -> int:
+    if args.urdf:
+        check_output_file(args.urdf, "--urdf")
     over = dict(parse_override(t) for t in args.overrides)
     if args.scale_to_mass is not None:
         return _scale(args, over)
@@ -79,7 +82,7 @@ def _scale(args: argparse.Namespace, over: dict[str, Any]) -> int:
     if not args.output:
         raise InputError("command line", "-o", "an output model file (-o OUT.toml) with "
                          "--scale-to-mass")
-    out = Path(args.output)
+    out = check_output_file(args.output, "-o")
     if out.suffix != ".toml":
         raise InputError("command line", "-o", "a model file name ending in .toml", str(out))
     source = load_model(args.model or DEMO_MODEL, over)

@@ -278,10 +278,12 @@ def load_scaled(robot: ScaledRobot) -> RobotModel:
 
 
 def write_scaled(robot: ScaledRobot, folder: str | Path) -> list[Path]:
-    """Write the files of ``robot`` under ``folder`` (each atomically; validated first, so a
-    robot gaitload would refuse leaves nothing behind); returns the paths written."""
-    from sim.core.atomic import write_text_atomic
+    """Write the files of ``robot`` under ``folder``, all or none (:func:`sim.core.atomic.
+    output_batch`; validated first, so a robot gaitload would refuse leaves nothing behind);
+    returns the paths written."""
+    from sim.core.atomic import output_batch, write_text_atomic
 
     load_scaled(robot)
     home = Path(folder)
-    return [write_text_atomic(home / rel, text) for rel, text in sorted(robot.texts.items())]
+    with output_batch():
+        return [write_text_atomic(home / rel, text) for rel, text in sorted(robot.texts.items())]
