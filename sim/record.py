@@ -283,6 +283,30 @@ class RecordWriter:
             self._ttime[j] += ttime.reshape(self._hist[j].shape) * dt
 
     # -- closing ----------------------------------------------------------------------------
+    def _trim_series(self) -> None:
+        """Cut the sampled series (and, apart, the every-step ones) to their common length: a
+        run interrupted between two appends of one sample leaves one series a sample longer."""
+        f = self._f
+        for roots in (("time_s", "joints", "feet", "base"), ("steps",)):
+            sets: list[Any] = []
+            for root in roots:
+                if root not in f:
+                    continue
+                node = f[root]
+                if isinstance(node, h5py.Dataset):
+                    sets.append(node)
+                else:
+                    found: list[Any] = []
+                    node.visititems(lambda _n, o, acc=found: acc.append(o)
+                                    if isinstance(o, h5py.Dataset) and o.maxshape
+                                    and o.maxshape[0] is None else None)
+                    sets.extend(found)
+            if sets:
+                n = min(d.shape[0] for d in sets)
+                for d in sets:
+                    if d.shape[0] > n:
+                        d.resize(n, axis=0)
+
     def finish(self, status: str, detail: str = "", **attrs: Any) -> Path:
         """Write histograms, summary and status, close and rename into place.
 
@@ -293,6 +317,8 @@ class RecordWriter:
         if status not in STATUSES:
             raise ValueError(f"status must be one of {STATUSES}")
         f = self._f
+        if status == "interrupted":
+            self._trim_series()
         dur = self._dt_total
         shares = None if self._hf is None else self._hf.shares()
         g = f.require_group("quality")

@@ -347,3 +347,28 @@ def test_an_unreachable_scheduler_is_exit_2_and_writes_nothing(tmp_path, capsys)
     err = capsys.readouterr().err
     assert "--cluster" in err and "reached" in err
     assert not out.exists()
+
+
+def test_an_interrupted_record_has_series_of_one_length(tmp_path):
+    # a run stopped between two appends of one sample: the partial record is cut to the
+    # common length, so it opens (every series the same number of samples) and reads
+    import numpy as np
+
+    from sim.record import RecordWriter, open_record
+
+    edges = np.linspace(-10.0, 10.0, 11)
+    attrs = {"tool_version": "t", "scenario_toml": "", "model_toml": "", "time_step_s": 0.001,
+             "sample_period_s": 0.001, "decimation": 1, "seed": 0, "engine_version": "none",
+             "total_mass_kg": 0.0, "leg_names": ["fl", "fr", "hl", "hr"]}
+    with RecordWriter(tmp_path / "p.h5", ["fl_knee"], {"fl_knee": edges},
+                      {"fl_knee": edges}, attrs) as w:
+        t = np.arange(5) * 0.001
+        w.append("time_s", t)
+        for name in ("angle_rad", "speed_rad_s", "torque_nm", "torque_command_nm"):
+            w.append(f"joints/fl_knee/{name}", np.zeros(5))
+        w.append("joints/fl_knee/saturated", np.zeros(5), dtype="i1")
+        w.append("joints/fl_knee/torque_nm", np.zeros(1))  # one more: the interrupted append
+        out = w.finish("interrupted", "test")
+    with open_record(out) as rec:
+        assert rec.read("joints/fl_knee/torque_nm").shape == (5,)
+        assert rec.read("time_s").shape == (5,)
