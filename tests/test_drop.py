@@ -89,11 +89,14 @@ def test_landing_impulse_equals_momentum_change(tmp_path, mode):
     # the lowest foot starts the set 0.10 m above the ground (to the pad's 1 mm)
     assert bottom[0].min() == pytest.approx(0.10, abs=1e-3)
     # each foot's first contact is the step at whose end its bottom (from the recorded base
-    # pose and angles through the kinematics) has reached the ground
+    # pose and angles through the kinematics) has reached the ground, or the next one: the
+    # engine makes contact points from the positions at the start of a step, so a foot still
+    # more than its contact margin above the ground then touches one step later (measured:
+    # 0.23 mm above at the step's start touched in that step, 0.74 mm above in the next)
     for k, leg in enumerate(LEGS):
         reached = int(np.argmax(bottom[1:, k] <= 0.0))
         assert bottom[reached, k] > 0.0
-        assert int(np.argmax(per_foot[:, k] > 0)) == reached, leg
+        assert int(np.argmax(per_foot[:, k] > 0)) - reached in (0, 1), leg
 
 
 def test_peak_knee_torque_rises_with_drop_height(tmp_path):
@@ -115,7 +118,10 @@ def test_peak_knee_gearbox_torque_rises_with_ratio_at_equal_output_limit(tmp_pat
     for n in (5.0, 9.0, 15.0):
         amps = 30.0 * 9.0 / n  # same output torque limit N k I_max as the demo knee
         # the knee reducer: the generic rated part at ratio n, ideal (no losses or inertia)
-        ratio = drive_set_args({"knee.gear_ratio": n, "knee.current_limit_a": amps})
+        # the same written gains for every ratio: the derived ones follow N^2 J_r, which
+        # would change the legs' stiffness along with the reflected inertia
+        ratio = [*drive_set_args({"knee.gear_ratio": n, "knee.current_limit_a": amps}),
+                 "control.gains=written"]
         peaks.append(_peak_gearbox_knee(_drop(tmp_path, f"n{n}", [
             *ratio, "ground.stiffness_n_m=0", "ground.damping_n_s_m=0"])[1]))
         forces.append(_peak_foot_force(_drop(tmp_path, f"soft{n}", ratio)[1]))
@@ -147,8 +153,18 @@ def test_jump_leaves_the_ground_and_lands_on_its_feet(tmp_path):
     t_flight = (v + np.sqrt(v * v + 2 * G * (z[0] - z[-1]))) / G
     assert airborne.size * dt == pytest.approx(t_flight, abs=2 * dt)
     assert contact[-1] == 4  # back on four feet
-    assert res.joints["fl_knee"]["peak_gearbox_torque_nm"] > res.joints["fl_knee"][
-        "peak_motor_side_torque_nm"]  # the rotors add to the gearbox load at landing
+    # the rotors take their inertial torque N^2 J_r qdd out of the motor's (reflected inertia,
+    # Wensing et al. 2017): motor side minus gearbox torque against N^2 J_r qdd over the
+    # jump, least-squares slope 1 (to 10 %: reducer friction and efficiency, and the rotor's
+    # coupling with the thigh, make the rest). On the jump's pad the landing is soft and the
+    # knee peaks come in the push, where the rotors take torque (gearbox below motor side)
+    a = scn.model.actuators["fl_knee"]
+    with open_record(res.record) as rec:
+        w = rec.read("joints/fl_knee/speed_rad_s")
+        diff = rec.read("joints/fl_knee/torque_nm") - rec.read("joints/fl_knee/gearbox_torque_nm")
+    acc = np.append(np.diff(w) / dt, 0.0)
+    pred = a.reflected_inertia_kg_m2 * acc
+    assert float(np.dot(diff, pred) / np.dot(pred, pred)) == pytest.approx(1.0, abs=0.1)
     # the record's every-step statistics follow the load at the reducer output
     assert res.joints["fl_knee"]["peak_torque_nm"] == res.joints["fl_knee"][
         "peak_gearbox_torque_nm"]

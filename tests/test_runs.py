@@ -58,8 +58,10 @@ def test_unstable_gains_are_reported_as_divergence(tmp_path):
                         ["segment.0.duration_s=2", "record.start_s=0", "time_step_s=0.005",
                          "control.update_period_s=0.005", "control.kd_nm_s_rad.knee=150",
                          "control.kd_nm_s_rad.hip=150", "limits.max_tilt_rad=3.1",
-                         "limits.min_height_fraction=0", "drive.losses=false"])
-    # (reducer friction off: the explicit PD limit alone, not the friction that damps it)
+                         "limits.min_height_fraction=0", "drive.losses=false",
+                         'drive.rotor_inertia="off"'])
+    # (reducer friction and rotors off: the explicit PD limit on the links alone, not the
+    # friction that damps it or the reflected inertia that slows it)
     res = run(scn, tmp_path / "d.h5")
     assert res.status == "diverged", res.detail
 

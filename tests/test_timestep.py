@@ -43,6 +43,12 @@ def test_the_step_study_compares_the_figures_of_both_records(tmp_path, capsys):
     doc = json.loads(capsys.readouterr().out)
     assert code == 0
     assert doc["time_step_s"] == 0.001 and doc["half_step_s"] == 0.0005
+    # the record's quality screen comes with the study's changes judged (sim.loads.quality)
+    assert doc["quality"]["record"] == str(out)
+    beyond = [(j, f) for j in JOINT_NAMES for f in FIGURES
+              if abs(doc["joints"][j][f]["change"]) > STEP_CHANGE_LIMIT]
+    assert all(any(r.startswith(f"step halving change of {f}") and j in r
+                   for r in doc["quality"]["failed"]) for j, f in beyond)
     half = tmp_path / "s_half_step.h5"
     assert out.is_file() and half.is_file()
     with open_record(half) as rec:
@@ -66,3 +72,19 @@ def test_a_change_beyond_the_limit_flags_the_joint():
     assert [(j, f) for j, f, _ in s.flagged] == [("fl_knee", "peak_torque_nm")]
     assert "STEP STUDY FLAGGED" in s.to_text()
     assert s.to_json()["flagged"][0]["change"] == pytest.approx(0.101)
+
+
+def test_the_quality_screen_takes_the_step_study(stand_record):
+    """A figure changing beyond the 10 % step-halving limit (common practice) flags the
+    record's screen like chatter does; one within it does not."""
+    from sim.loads.quality import THRESHOLDS, screen_record, with_step_changes
+
+    base = screen_record(stand_record)
+    assert THRESHOLDS["step_change"].value == STEP_CHANGE_LIMIT
+    ok = with_step_changes(base, {("fl_knee", "peak_torque_nm"): 0.05,
+                                  ("fl_hip", "rms_torque_nm"): -0.099})
+    assert ok.flagged == base.flagged
+    bad = with_step_changes(base, {("fl_knee", "peak_torque_nm"): -0.12})
+    assert bad.flagged
+    assert "step halving change of peak_torque_nm > 0.1: fl_knee 0.12" in bad.reasons()
+    assert "QUALITY FLAGGED" in (bad.flag_line() or "")

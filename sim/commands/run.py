@@ -56,22 +56,55 @@ def drive_summary(scn: Any) -> dict[str, Any]:
             "overrides": list(dt.overrides)}
 
 
+def gains_summary(scn: Any) -> dict[str, Any]:
+    """The joint gains the run uses (per joint) and the targets they were derived for."""
+    c = scn.data["control"]
+    return {"gains": c["gains"], "hold": c["hold"], "bandwidth_hz": c["bandwidth_hz"],
+            "damping_ratio": c["damping_ratio"],
+            "joints": {j: g.to_json() for j, g in scn.gains.items()}}
+
+
+def format_gains(scn: Any) -> str:
+    """One line per joint kind of the front left leg, and which joints were written."""
+    c = scn.data["control"]
+    g = scn.gains
+    head = (f"gains ({c['gains']}; derived for {c['bandwidth_hz']:g} Hz, damping ratio "
+            f"{c['damping_ratio']:g}, docs/control.md): ")
+    parts = []
+    for kind in ("abad", "hip", "knee"):
+        x = g[f"fl_{kind}"]
+        parts.append(f"{kind} kp {x.kp_nm_rad:.4g} kd {x.kd_nm_s_rad:.3g} ({x.source})")
+    written = [j for j, x in g.items() if not x.source.startswith("derived")]
+    tail = f"; written in the scenario: {', '.join(written)}" if written else ""
+    return head + "; ".join(parts) + tail
+
+
 def _dt_study(args: argparse.Namespace, out: Path) -> int:
     from sim.sweeps.timestep import step_study
 
     study = step_study(args.scenario, args.overrides, out, progress=not args.json)
+    done = not any(s in ("fell", "diverged") for s in study.status)
+    screen = study.screen() if done and study.at_step else None
     if args.json:
-        print(json.dumps(study.to_json(), indent=2, allow_nan=False))
+        doc = study.to_json()
+        if screen is not None:
+            doc["quality"] = screen.to_json()
+        print(json.dumps(doc, indent=2, allow_nan=False))
     else:
         print(study.to_text())
+        if screen is not None:
+            print(screen.to_text())
         print(CAUTION)
-    if any(s in ("fell", "diverged") for s in study.status):
+    if not done:
         print(f"gaitload run: a step-study run did not complete ({', '.join(study.status)}); "
               "records kept for inspection", file=sys.stderr)
         return 3
     for j, f, c in study.flagged if args.json else []:
         print(f"STEP STUDY FLAGGED {j} {f} {100 * c:+.1f}%", file=sys.stderr)
-    return 1 if args.strict and study.flagged else 0
+    if args.json and screen is not None and screen.flag_line():
+        print(screen.flag_line(), file=sys.stderr)
+    flagged = bool(study.flagged) or (screen is not None and screen.flagged)
+    return 1 if args.strict and flagged else 0
 
 
 def execute(args: argparse.Namespace) -> int:
@@ -91,7 +124,8 @@ def execute(args: argparse.Namespace) -> int:
     screen = screen_records([result.record])
     if args.json:
         print(json.dumps({**result.to_json(), "quality": screen.to_json(),
-                          "drivetrain": drive_summary(scn)}, indent=2, allow_nan=False))
+                          "drivetrain": drive_summary(scn), "gains": gains_summary(scn)},
+                         indent=2, allow_nan=False))
         for line in screen.flag_lines():
             print(line, file=sys.stderr)
     else:
@@ -104,6 +138,7 @@ def execute(args: argparse.Namespace) -> int:
               f"reducer losses: {'on' if d['losses'] else 'off'}")
         for note in d["not_simulated"]:
             print(f"  not simulated: {note}")
+        print(format_gains(scn))
         print(format_table(result))
         print(screen.to_text())
         print(CAUTION)

@@ -250,12 +250,13 @@ def dump_toml(data: Mapping[str, Any]) -> str:
             if v and all(isinstance(x, Mapping) for x in v):
                 raise TypeError("array of tables handled by caller")
             return "[" + ", ".join(fmt(x) for x in v) + "]"
-        if v is None:
-            return '""'
         raise TypeError(f"cannot write {type(v).__name__} to TOML")
 
     def emit(table: Mapping[str, Any], path: str) -> None:
-        scalars = {k: v for k, v in table.items() if not isinstance(v, Mapping)
+        # None is a key left out (TOML has no null): omitted, so reading the text back gives
+        # the same default
+        scalars = {k: v for k, v in table.items() if v is not None
+                   and not isinstance(v, Mapping)
                    and not (isinstance(v, list) and v and all(isinstance(x, Mapping) for x in v))}
         for k in sorted(scalars):
             lines.append(f"{k} = {fmt(scalars[k])}")

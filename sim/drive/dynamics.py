@@ -114,7 +114,7 @@ GEAR_MAX_FORCE_NM = 1e6  # effectively rigid gear teeth (limit of the constraint
 class DriveOptions:
     """Scenario ``[drive]`` table: which drivetrain effects the engine simulates."""
 
-    rotor_inertia: str = "off"
+    rotor_inertia: str = "exact"
     losses: bool = True
     efficiency_band_rad_s: float = 0.01
 
@@ -125,7 +125,7 @@ class DriveOptions:
     @classmethod
     def from_table(cls, table: dict[str, Any] | None) -> DriveOptions:
         t = table or {}
-        return cls(t.get("rotor_inertia", "off"), bool(t.get("losses", True)),
+        return cls(t.get("rotor_inertia", "exact"), bool(t.get("losses", True)),
                    float(t.get("efficiency_band_rad_s", 0.01)))
 
 

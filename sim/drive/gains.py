@@ -14,22 +14,36 @@ plus ``N^2 J_rotor`` when rotors are simulated: the swing leg, the lightest case
 where an explicit loop is closest to its limit.
 
 Discrete-time limit. The engine integrates with semi-implicit Euler at the step ``dt`` and the
-loop is evaluated every step; one step maps ``(x, v)`` to ``v' = v - dt (kp x + kd v) / J``,
-``x' = x + dt v'``, which is stable when ``(kp dt^2 + 2 kd dt) / J < 4`` (Jury conditions on
-the step's 2x2 matrix; the same bound as :func:`sim.drive.dynamics.mesh_step_number`). Near
-the bound the loop rings at the step rate: the torque flips sign every step (chatter). The
-derived gains keep ``(kp dt^2 + 2 kd dt) / J <= STEP_NUMBER_MAX`` = 0.5, an eighth of the
-bound (common practice: a wide margin for the inertia that the pose and the contacts change,
-and for the feed-forward updated at the control period); where the target bandwidth would
-pass it, the bandwidth is lowered to the largest ``w`` that keeps it:
-``w^2 dt^2 + 4 zeta w dt = STEP_NUMBER_MAX``.
+loop is evaluated every step; one step maps ``(x, dt v)`` by ``[[1 - a, 1 - b], [-a, 1 - b]]``
+with ``a = kp dt^2 / J``, ``b = kd dt / J`` (:func:`step_matrix`), characteristic polynomial
+``z^2 - (2 - a - b) z + (1 - b)``. By the Jury conditions for ``z^2 + c1 z + c0`` (roots inside
+the unit circle iff ``|c0| < 1``, ``1 + c1 + c0 > 0``, ``1 - c1 + c0 > 0``; E. I. Jury, *Theory
+and Application of the z-Transform Method*, 1964; from memory) it is stable iff ``0 < b < 2``
+and ``a + 2 b < 4``: ``(kp dt^2 + 2 kd dt) / J < 4`` (the same bound as
+:func:`sim.drive.dynamics.mesh_step_number`; with kp = 0, ``kd dt / J < 2``). Stable is not
+clean: a root on the negative real axis makes the torque alternate in sign from step to step
+(chatter). Both roots have a positive real part iff ``b <= 1`` and ``a + b < 2`` (real roots:
+positive sum ``2 - a - b`` and product ``1 - b``; complex roots: real part ``(2 - a - b)/2``;
+:func:`step_is_alternation_free`). The derived gains keep ``(kp dt^2 + 2 kd dt) / J <=
+STEP_NUMBER_MAX`` = 0.5, an eighth of the stability bound and well inside the alternation-free
+region (``b <= 0.25``, ``a + b <= 0.5``; common practice: a wide margin for the inertia that
+the pose and the contacts change); where the target bandwidth would pass it, the bandwidth is
+lowered to the largest ``w`` that keeps it: ``w^2 dt^2 + 4 zeta w dt = STEP_NUMBER_MAX``.
 
-Defaults (scenario ``[control]``): ``bandwidth_hz`` = 16 times the leg's pendulum frequency
-(:func:`derived_bandwidth_hz`, 12 Hz on the demo; 14 Hz on a 6 kg and 10.6 Hz on a 35 kg
-robot scaled from it) and ``damping_ratio = 1.0``: a critically damped joint well below the
-screen's 100 Hz cut-off (common practice for position loops under torque feed-forward; the
-factor 16 was chosen from trots of 6, 15 and 35 kg robots, docs/gaits.md). Gains a scenario
-writes (``[control.kp_nm_rad]``, ``[control.kd_nm_s_rad]`` per joint kind, or a segment's)
+Control period. Targets and feed-forward change every control period ``T``; the bandwidth is
+also kept below a tenth of the update rate, ``w <= 2 pi / (10 T)`` (a digital controller
+samples about ten times its closed-loop bandwidth: common practice; Franklin, Powell &
+Workman, *Digital Control of Dynamic Systems*, from memory).
+
+Defaults (scenario ``[control]``, ``gains = "derived"``): ``bandwidth_hz = 16`` and
+``damping_ratio = 1.0``: a critically damped joint well below the quality screen's 100 Hz
+cut-off (common practice for position loops under torque feed-forward). 16 Hz was chosen from
+trots of robots of 6, 15 and 35 kg with the complete dynamics (exact rotors, foot pad): the
+shares above 100 Hz stay below 0.13 and the knee peaks change by at most 1 % when the step is
+halved; 20 Hz with the command hold broke the 10 % step-halving limit, 12 Hz softened the
+stance (docs/control.md). The shipped scenarios command fixed speeds and periods, so the
+bandwidth is one figure for every robot size. Gains a scenario writes
+(``[control.kp_nm_rad]``, ``[control.kd_nm_s_rad]`` per joint kind or joint, or a segment's)
 win over the derived ones.
 """
 
@@ -45,18 +59,9 @@ from sim import JOINT_NAMES
 from sim.robot.model import RobotModel
 
 STEP_NUMBER_MAX = 0.5  # (kp dt^2 + 2 kd dt) / J allowed; semi-implicit Euler is stable below 4
-DEFAULT_BANDWIDTH_HZ = 12.0
+SAMPLES_PER_PERIOD = 10.0  # control updates per period of the bandwidth, at least
+DEFAULT_BANDWIDTH_HZ = 16.0
 DEFAULT_DAMPING_RATIO = 1.0
-BANDWIDTH_PER_LEG_FREQUENCY = 16.0  # bandwidth / (sqrt(g / L) / 2 pi)
-
-
-def derived_bandwidth_hz(model: RobotModel) -> float:
-    """16 times the leg's pendulum frequency ``sqrt(g / L) / 2 pi`` (``L`` = thigh + shank):
-    12 Hz on the demo's 0.44 m legs. Dynamic similarity (Froude: times scale as
-    ``sqrt(L / g)``; Alexander, *Principles of Animal Locomotion*, from memory) keeps the
-    loop as fast, relative to the gait, on a small robot as on a large one."""
-    L = model.leg["thigh_length_m"] + model.leg["shank_length_m"]
-    return BANDWIDTH_PER_LEG_FREQUENCY * math.sqrt(9.80665 / L) / (2.0 * math.pi)
 
 
 def step_number(kp: float, kd: float, inertia_kg_m2: float, dt: float) -> float:
@@ -70,6 +75,24 @@ def largest_bandwidth_rad_s(damping_ratio: float, dt: float,
     z = damping_ratio
     return (-4.0 * z * dt + math.sqrt(16.0 * z * z * dt * dt + 4.0 * dt * dt * limit)) \
         / (2.0 * dt * dt)
+
+
+def step_matrix(kp: float, kd: float, inertia_kg_m2: float, dt: float) -> np.ndarray:
+    """One explicit step of ``J x'' = -kp x - kd x'`` on ``(x, dt v)`` (module docstring)."""
+    a, b = kp * dt * dt / inertia_kg_m2, kd * dt / inertia_kg_m2
+    return np.array([[1.0 - a, 1.0 - b], [-a, 1.0 - b]])
+
+
+def step_is_stable(kp: float, kd: float, inertia_kg_m2: float, dt: float) -> bool:
+    """Jury: ``0 < b < 2`` and ``a + 2 b < 4`` (``a = kp dt^2 / J``, ``b = kd dt / J``)."""
+    a, b = kp * dt * dt / inertia_kg_m2, kd * dt / inertia_kg_m2
+    return 0.0 < b < 2.0 and a + 2.0 * b < 4.0
+
+
+def step_is_alternation_free(kp: float, kd: float, inertia_kg_m2: float, dt: float) -> bool:
+    """Both roots of the step with a positive real part: ``b <= 1`` and ``a + b < 2``."""
+    a, b = kp * dt * dt / inertia_kg_m2, kd * dt / inertia_kg_m2
+    return b <= 1.0 and a + b < 2.0
 
 
 def swing_inertias(model: RobotModel, q_stance: np.ndarray, rotors: bool) -> dict[str, float]:
@@ -105,27 +128,40 @@ def joint_gains(model: RobotModel, q_stance: np.ndarray, dt: float, rotors: bool
                 bandwidth_hz: float = DEFAULT_BANDWIDTH_HZ,
                 damping_ratio: float = DEFAULT_DAMPING_RATIO,
                 written_kp: Mapping[str, float | None] | None = None,
-                written_kd: Mapping[str, float | None] | None = None) -> dict[str, JointGains]:
-    """Gains of every joint: derived (module docstring) unless the scenario writes them for
-    the joint's kind (``written_kp`` / ``written_kd``: kind -> value or None)."""
+                written_kd: Mapping[str, float | None] | None = None,
+                control_period_s: float | None = None) -> dict[str, JointGains]:
+    """Gains of every joint: derived (module docstring) unless the scenario writes them
+    (``written_kp`` / ``written_kd``: joint kind or joint name -> value or None; a joint's
+    value wins over its kind's)."""
     inertia = swing_inertias(model, q_stance, rotors)
     w_max = largest_bandwidth_rad_s(damping_ratio, dt)
+    w_period = math.inf if control_period_s is None else \
+        2.0 * math.pi / (SAMPLES_PER_PERIOD * control_period_s)
     out = {}
     for j in JOINT_NAMES:
-        kind = j.split("_")[1]
         J = inertia[j]
         w = 2.0 * math.pi * bandwidth_hz
         source = "derived"
+        if w > w_period:
+            w, source = w_period, "derived, bandwidth lowered for the control period"
         if w > w_max:
             w, source = w_max, "derived, bandwidth lowered for the step"
         kp, kd = J * w * w, 2.0 * damping_ratio * J * w
-        wk = (written_kp or {}).get(kind)
-        wd = (written_kd or {}).get(kind)
+        wk, wd = (_written(written_kp, j), _written(written_kd, j))
         if wk is not None or wd is not None:
             kp = kp if wk is None else float(wk)
             kd = kd if wd is None else float(wd)
-            source = "scenario"
+            source = "scenario" if wk is not None and wd is not None else \
+                ("scenario kp, derived kd" if wk is not None else "derived kp, scenario kd")
         bw = math.sqrt(kp / J) / (2.0 * math.pi) if kp > 0 else 0.0
         zeta = kd / (2.0 * math.sqrt(kp * J)) if kp > 0 else math.inf
         out[j] = JointGains(kp, kd, J, bw, zeta, step_number(kp, kd, J, dt), source)
     return out
+
+
+def _written(table: Mapping[str, float | None] | None, joint: str) -> float | None:
+    """The value a scenario writes for ``joint``: its own, else its kind's, else None."""
+    if not table:
+        return None
+    v = table.get(joint)
+    return table.get(joint.split("_")[1]) if v is None else v

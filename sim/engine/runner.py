@@ -8,7 +8,7 @@ each actuator's envelope. The named parts of the loop live beside it, each chang
 
     world      (:mod:`.world`)      the engine, the robot and every engine trap handled
     clamp      (:mod:`.clamp`)      actuator envelope limits and saturation flags
-    control    (this module)        the PD law between control updates, first-order hold
+    control    (this module)        the PD law between control updates, hold of the command
     disturb    (:mod:`.disturb`)    pushes and trips
     recording  (:mod:`.recording`)  histograms and exact statistics, sampled series
     health     (:mod:`.health`)     falls and divergence end the run with that status

@@ -33,7 +33,7 @@ from memory).
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -78,6 +78,11 @@ THRESHOLDS: dict[str, Threshold] = {
         "mean base height error over the planned height"),
     "overflow_share": Threshold(
         0.01, "share of time", COMMON, "share of the time outside the histogram bins"),
+    "step_change": Threshold(
+        0.10, "relative change", "common practice (step halving: halve the integration step, "
+        "compare, trust a figure that changes little)",
+        "change of a joint's peak, RMS or equivalent torque when the time step is halved "
+        "(gaitload run --dt-study)"),
 }
 SLIP_FLOOR_M = 0.05  # slips below this are not judged (a standing robot travels ~0 m)
 
@@ -293,6 +298,18 @@ def _run_figures(rec: RunRecord, q: dict[str, Any]) -> dict[str, Any]:
                                  if plan > 0 and run.get("height_screened_s", 0.0) > 0 else None)
     run["status"] = str(a.get("status"))
     return run
+
+
+def with_step_changes(screen: QualityScreen,
+                      changes: Mapping[tuple[str, str], float]) -> QualityScreen:
+    """``screen`` with the time-step study's findings added: ``changes[(joint, figure)]`` is
+    the relative change of a figure (``peak_torque_nm``, ...) when the step is halved, judged
+    against ``THRESHOLDS["step_change"]`` (the study itself: :mod:`sim.sweeps.timestep`)."""
+    findings = list(screen.findings)
+    for (joint, figure), change in changes.items():
+        _judge(findings, f"step halving change of {figure}", joint, abs(change), "step_change")
+    return QualityScreen(screen.record, screen.screened, tuple(findings), screen.joints,
+                         screen.run)
 
 
 def screen_records(paths: Sequence[str | Path]) -> ScreenSet:

@@ -174,7 +174,10 @@ def _joint(name: str, parent: str, child: str, xyz: Sequence[float] | np.ndarray
 def _rotor(joint: str, parent: str, xyz: Sequence[float], axis: str,
            j_rotor: float, axis_index: int) -> str:
     """Rotor link and its continuous joint, coaxial with ``joint``, on ``parent``."""
-    diag = [j_rotor / 2] * 3
+    # a thin disc about its diameters, raised by 1e-6 so that the 9-digit text still meets
+    # the triangle inequality Ixx + Iyy >= Izz: pybullet sets an inertia that does not to
+    # zero ("Bad inertia tensor properties"), which silently dropped some rotors
+    diag = [j_rotor / 2 * (1.0 + 1e-6)] * 3
     diag[axis_index] = j_rotor
     diag = [max(d, 1e-12) for d in diag]
     mp = MassProps(ROTOR_MASS_KG, np.zeros(3), np.diag(diag))

@@ -14,10 +14,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from sim import JOINT_KINDS
+from sim import JOINT_KINDS, JOINT_NAMES
 from sim.core.config import Field, dump_toml, load_toml, parse_override, set_dotted, validate
 from sim.core.errors import InputError
 from sim.core.paths import label_problem
+from sim.drive.gains import DEFAULT_BANDWIDTH_HZ, DEFAULT_DAMPING_RATIO
 from sim.robot.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
@@ -38,19 +39,19 @@ SCENARIO_SPEC: dict[str, Any] = {
         "slope_rad": Field(float, "ground slope, rising along +x (uphill when walking forward)",
                            default=0.0, min=-0.6, max=0.6),
         "stiffness_n_m": Field(float, "contact stiffness per foot; 0 = the engine's rigid "
-                               "contact; left out = rigid, or with pad = true a foot pad "
-                               "derived from the robot's weight (foot_pad_n_m)", min=0.0),
+                               "contact; left out = a foot pad derived from the robot's weight "
+                               "(foot_pad_n_m), or rigid with pad = false", min=0.0),
         "pad": Field(bool, "a foot pad derived from the robot's weight where stiffness_n_m is "
-                     "left out", default=False),
+                     "left out (false: the engine's rigid contact)", default=True),
         "damping_n_s_m": Field(float, "contact damping per foot (with stiffness); left out "
                                "with the stiffness = derived", min=0.0),
         "restitution": Field(float, "coefficient of restitution", default=0.0, min=0.0, max=1.0),
     },
     "drive": {
-        "rotor_inertia": Field(str, "motor rotors: 'off' (rigid joints), 'approximate' (N^2 J_r "
-                               "added to the child link) or 'exact' (geared rotor links, "
-                               "about 1.6 x the run time)",
-                               default="off", choices=("off", "approximate", "exact")),
+        "rotor_inertia": Field(str, "motor rotors: 'exact' (geared rotor links; the reference, "
+                               "docs/dynamics.md), 'approximate' (N^2 J_r added to the child "
+                               "link) or 'off' (rigid joints)",
+                               default="exact", choices=("off", "approximate", "exact")),
         "losses": Field(bool, "simulate the reducer friction and efficiency of the "
                         "drivetrain's reducer parts", default=True),
         "efficiency_band_rad_s": Field(float, "speed band around rest over which the forward "
@@ -69,21 +70,25 @@ SCENARIO_SPEC: dict[str, Any] = {
                         min=0.0, min_inclusive=False),
     },
     "control": {
-        "gains": Field(str, "'written': the kp/kd tables (defaults 150 N m/rad, 3 N m s/rad); "
-                       "'derived': from the robot's joint inertias, bandwidth_hz and "
-                       "damping_ratio, where the tables leave a kind out (sim/drive/gains.py)",
-                       default="written", choices=("written", "derived")),
+        "gains": Field(str, "'derived': from the robot's joint inertias, bandwidth_hz and "
+                       "damping_ratio, where the kp/kd tables leave a joint out "
+                       "(sim/drive/gains.py, docs/control.md); 'written': the tables, "
+                       "150 N m/rad and 3 N m s/rad where they leave a joint out",
+                       default="derived", choices=("written", "derived")),
         "hold": Field(str, "between control updates: 'targets' (targets follow the planned "
                       "joint speed, feed-forward held) or 'command' (the whole command follows "
                       "its last rate of change: no ripple at the update rate)",
                       default="targets", choices=("targets", "command")),
-        "kp_nm_rad": {k: Field(float, "joint stiffness", min=0.0) for k in JOINT_KINDS},
-        "kd_nm_s_rad": {k: Field(float, "joint damping", min=0.0) for k in JOINT_KINDS},
-        "bandwidth_hz": Field(float, "target bandwidth of the derived joint gains; left out "
-                              "= 16 x the leg's pendulum frequency sqrt(g / L) / 2 pi, L = "
-                              "thigh + shank (12 Hz on the demo)", **POS),
-        "damping_ratio": Field(float, "damping ratio of the derived joint gains", default=1.0,
-                               **POS),
+        # a joint kind (abad, hip, knee) or a joint (fl_knee); a joint's value wins over its
+        # kind's, and either over the derived gains
+        "kp_nm_rad": {k: Field(float, "joint stiffness", min=0.0)
+                      for k in (*JOINT_KINDS, *JOINT_NAMES)},
+        "kd_nm_s_rad": {k: Field(float, "joint damping", min=0.0)
+                        for k in (*JOINT_KINDS, *JOINT_NAMES)},
+        "bandwidth_hz": Field(float, "target bandwidth of the derived joint gains",
+                              default=DEFAULT_BANDWIDTH_HZ, **POS),
+        "damping_ratio": Field(float, "damping ratio of the derived joint gains",
+                               default=DEFAULT_DAMPING_RATIO, **POS),
         "update_period_s": Field(float, "period of target and feed-forward updates",
                                  default=0.002, **POS),
     },
@@ -145,6 +150,8 @@ class Scenario:
     def to_toml(self) -> str:
         d = copy.deepcopy(self.data)
         d["segment"] = [dict(s) for s in self.segments]
+        for key in ("kp_nm_rad", "kd_nm_s_rad"):  # gains left unset are derived
+            d["control"][key] = {k: v for k, v in d["control"][key].items() if v is not None}
         return dump_toml(d)
 
 
@@ -199,20 +206,18 @@ def load_scenario(path: str | Path, overrides: list[str] | None = None) -> Scena
 
     check_mesh(model, DriveOptions.from_table(values["drive"]), values["time_step_s"], str(path))
     _resolve_ground(values, model, str(path))
-    from sim.drive.gains import derived_bandwidth_hz, joint_gains
+    from sim.drive.gains import joint_gains
     from sim.scenario.segments import stance_angles
 
     ctl = values["control"]
-    if ctl["bandwidth_hz"] is None:
-        ctl["bandwidth_hz"] = round(derived_bandwidth_hz(model), 6)
     if ctl["gains"] == "written":  # the tables, with their defaults where they leave a kind out
-        ctl["kp_nm_rad"] = {k: (WRITTEN_KP if v is None else v)
-                            for k, v in ctl["kp_nm_rad"].items()}
-        ctl["kd_nm_s_rad"] = {k: (WRITTEN_KD if v is None else v)
-                              for k, v in ctl["kd_nm_s_rad"].items()}
+        for key, default in (("kp_nm_rad", WRITTEN_KP), ("kd_nm_s_rad", WRITTEN_KD)):
+            ctl[key] = {k: (default if v is None and k in JOINT_KINDS else v)
+                        for k, v in ctl[key].items()}
     gains = joint_gains(model, stance_angles(model), values["time_step_s"],
                         values["drive"]["rotor_inertia"] != "off", ctl["bandwidth_hz"],
-                        ctl["damping_ratio"], ctl["kp_nm_rad"], ctl["kd_nm_s_rad"])
+                        ctl["damping_ratio"], ctl["kp_nm_rad"], ctl["kd_nm_s_rad"],
+                        ctl["update_period_s"])
     return Scenario(values, str(path), model, tuple(segments), gains)
 
 

@@ -9,7 +9,10 @@ sums) between the scenario's ``time_step_s`` and half of it. A change beyond
 the step, and a check built on it is uncertain by about that much.
 
 The control update period stays as the scenario gives it, so only the integration step
-changes.
+changes. The quality screen can take the study: :meth:`StepStudy.screen` is the screen of the
+record at the scenario's step with a finding per joint and figure judged against the same 10 %
+(:func:`sim.loads.quality.with_step_changes`), so a duty not converged in the step is flagged
+like one that chatters.
 """
 
 from __future__ import annotations
@@ -44,6 +47,14 @@ class StepStudy:
     def flagged(self) -> list[tuple[str, str, float]]:
         return [(j, f, self.change(j, f)) for j in self.at_step for f in FIGURES
                 if abs(self.change(j, f)) > STEP_CHANGE_LIMIT]
+
+    def screen(self) -> Any:
+        """The quality screen of the record at the step, with the study's changes judged
+        (:func:`sim.loads.quality.with_step_changes`)."""
+        from sim.loads.quality import screen_record, with_step_changes
+
+        changes = {(j, f): self.change(j, f) for j in self.at_step for f in FIGURES}
+        return with_step_changes(screen_record(self.records[0]), changes)
 
     def to_json(self) -> dict[str, Any]:
         return {"time_step_s": self.time_step_s, "half_step_s": self.time_step_s / 2,
