@@ -232,3 +232,16 @@ def test_doubling_sample_rate_keeps_temperatures(tmp_path: Path):
     pa = check_motors(a, d, _supply()).to_json()["joints"]["fl_knee"]["winding_peak_c"]
     pb = check_motors(b, d, _supply()).to_json()["joints"]["fl_knee"]["winding_peak_c"]
     assert pa == pytest.approx(pb, abs=0.05)
+
+
+# -- step weight (written to kill surviving mutants, docs/mutation.md) -----------------------
+
+@pytest.mark.parametrize("x", [0.0, 5e-9, -5e-9, 2e-8, 0.3, -4.0, 12.0])
+def test_exact_step_weight_is_expm1_over_rate(x):
+    # weight of a constant input over a step h in x' = s x + u: (e^{s h} - 1)/s, tending to h
+    # as s -> 0 (integral of e^{s t} from 0 to h); reference numpy.expm1
+    h = 0.02
+    s = np.array([x / h])
+    got = th._phi(s, np.expm1(s * h), h)[0]
+    want = h if x == 0.0 else float(np.expm1(x) / s[0])
+    assert got == pytest.approx(want, rel=1e-13)
