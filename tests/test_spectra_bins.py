@@ -23,6 +23,7 @@ from sim.loads.spectra import (
     histogram_equivalent_torque_nm,
     load_duration,
     parse_exponent,
+    quadrant_split,
     rms_torque_nm,
 )
 
@@ -186,3 +187,97 @@ def test_bad_life_exponent_text_is_refused(text):
     # the message names the option, the text given and what was expected (RULES: bad input)
     assert e.value.file == "--exponent" and e.value.key == text
     assert e.value.expected == "a positive number such as 3 or 10/3"
+
+
+def _bin_means(tq, wts):
+    """Per (torque bin, speed bin) weighted mean torque of the samples, by hand with numpy."""
+    return (np.histogram2d(TQ, W, bins=[TE, SE], weights=np.multiply(tq, wts))[0],
+            np.histogram2d(TQ, W, bins=[TE, SE], weights=wts)[0])
+
+
+def test_bin_routes_weight_by_time_or_by_revolutions_as_each_figure_needs():
+    # speed bin (0, 5] of torque bin [10, 30) holds 12 N m (1.5 rad/s, 0.15 s) and 28 N m
+    # (0.5 rad/s, 0.2 s): time-weighted mean 21.14, revolution-weighted 16.92 N m, so a figure
+    # over time (RMS, load-duration, quadrants) and one over revolutions (T_eq) differ
+    tq, w, dt = map(np.asarray, (TQ, W, DT))
+    sp = _from_samples(tq, w, dt)
+    mt, t = _bin_means(tq, dt)
+    mr, n = _bin_means(tq, np.abs(w) * dt)
+    tmean = np.where(t > 0, mt / np.where(t > 0, t, 1), 0.0)
+    rmean = np.where(n > 0, mr / np.where(n > 0, n, 1), 0.0)
+    assert tmean[3, 1] == pytest.approx((12 * 0.15 + 28 * 0.2) / 0.35, rel=1e-12)
+    assert rmean[3, 1] == pytest.approx((12 * 0.225 + 28 * 0.1) / 0.325, rel=1e-12)
+    assert rms_torque_nm(sp) == pytest.approx(math.sqrt((tmean**2 * t).sum() / t.sum()),
+                                              rel=1e-12)
+    for p in (1.5, 3.0):
+        want = ((np.abs(rmean)**p * n).sum() / n.sum()) ** (1 / p)
+        assert histogram_equivalent_torque_nm(sp, p) == pytest.approx(want, rel=1e-12)
+    level, at_or_above = load_duration(sp)
+    keep = t.ravel() > 0
+    order = np.argsort(-np.abs(tmean).ravel()[keep])
+    np.testing.assert_allclose(level, np.abs(tmean).ravel()[keep][order], rtol=1e-12)
+    np.testing.assert_allclose(at_or_above, np.cumsum(t.ravel()[keep][order]), rtol=1e-12)
+    # the chord bound of bin [10, 30) uses the revolution-weighted mean (a, b = 10, 30):
+    one = _from_samples([12.0, 28.0], [1.5, 0.5], [0.15, 0.2])
+    m = (12 * 0.225 + 28 * 0.1) / 0.325
+    chord = (10.0**3 * (30 - m) + 30.0**3 * (m - 10)) / 20
+    assert equivalent_torque_bounds(one, 3.0) == (pytest.approx(m, rel=1e-12),
+                                                  pytest.approx(chord ** (1 / 3), rel=1e-12))
+
+
+def test_chord_bound_of_bins_touching_zero_and_of_linear_and_mild_exponents():
+    # a bin with an edge at zero is not across zero: chord from 0 to its far edge
+    # ([0, 10) holding 3 N m: chord 10^p * 3/10; [-20, 0) holding -5 N m: 20^p * 5/20)
+    for tq, b in ((3.0, 10.0), (-5.0, 20.0)):
+        sp = _from_samples([tq], [1.0], [1.0])
+        for p in (1.5, 3.0):
+            assert equivalent_torque_bounds(sp, p)[1] == pytest.approx(
+                (b**p * abs(tq) / b) ** (1 / p), rel=1e-12)
+        # p = 1: x^1 is its own chord, the bound closes on the estimate
+        low, up = equivalent_torque_bounds(sp, 1.0)
+        assert up == pytest.approx(low, rel=1e-12) and low == pytest.approx(abs(tq), rel=1e-12)
+    # a bin across zero with its upper edge below 1 N m: bounded by the larger |edge|^p
+    te = np.array([-10.0, 0.5])
+    across = JointSpectrum("j", te, SE, np.array([[1.0, 0.0]]), np.array([[2.0, 0.0]]),
+                           1.0, 5.0, "histogram", np.array([[-2.0 * 4.0, 0.0]]), None)
+    assert equivalent_torque_bounds(across, 3.0) == (pytest.approx(4.0, rel=1e-12),
+                                                     pytest.approx(10.0, rel=1e-12))
+    # torques below 1 N m: the share is still up/low - 1
+    small = _from_samples([0.2, 0.4], [1.0, 1.0], [1.0, 1.0])
+    low, up = equivalent_torque_bounds(small, 3.0)
+    assert low == pytest.approx(0.3, rel=1e-12)
+    assert equivalent_torque_detail(small, 3.0)["bias_bound"] == pytest.approx(up / low - 1)
+    assert up / low - 1 > 0.1
+
+
+def test_rms_of_zero_duration_is_zero_even_with_the_exact_integral():
+    z = JointSpectrum("j", TE, SE, np.zeros((4, 2)), np.zeros((4, 2)), 0.0, 0.0,
+                      torque_sq_time_nm2_s=0.0)
+    assert rms_torque_nm(z) == 0.0
+
+
+def test_quadrants_by_hand():
+    # driving: torque and speed of one sign (power out of the joint); braking: opposite signs.
+    # Samples: +12 N m at +1.5 rad/s 0.15 s (driving), -5 at -1 0.3 s (driving),
+    # -30 at +2 0.1 s (braking), +3 at -4 0.2 s (braking)
+    sp = _from_samples([12.0, -5.0, -30.0, 3.0], [1.5, -1.0, 2.0, -4.0], [0.15, 0.3, 0.1, 0.2])
+    q = quadrant_split(sp)
+    assert q["driving"]["time_s"] == pytest.approx(0.45, rel=1e-12)
+    assert q["braking"]["time_s"] == pytest.approx(0.3, rel=1e-12)
+    tp = 2 * math.pi
+    assert q["driving"]["revolutions"] == pytest.approx((0.225 + 0.3) / tp, rel=1e-12)
+    assert q["braking"]["revolutions"] == pytest.approx((0.2 + 0.8) / tp, rel=1e-12)
+    assert q["neg_torque_neg_speed"]["time_s"] == pytest.approx(0.3, rel=1e-12)
+    # a torque bin of mean 0.5 N m counts positive, zero torque counts positive (convention of
+    # sim.loads.spectra.quadrant_split), a speed bin centred on 0 counts positive
+    for tq in (0.5, 0.0):
+        s = _from_samples([tq], [2.0], [1.0])
+        assert quadrant_split(s)["pos_torque_pos_speed"]["time_s"] == pytest.approx(1.0)
+    se = np.array([-1.0, 1.0, 1.5])  # centres 0 and 1.25
+    s0 = JointSpectrum("j", TE, se, np.array([[0, 0], [0, 0], [0, 0], [1.0, 0]]),
+                       np.zeros((4, 2)), 1.0, 20.0)
+    assert quadrant_split(s0)["pos_torque_pos_speed"]["time_s"] == 1.0
+    se = np.array([0.0, 1.0, 1.5])  # centres 0.5 and 1.25
+    s1 = JointSpectrum("j", TE, se, np.array([[0, 0], [0, 0], [0, 0], [1.0, 0]]),
+                       np.zeros((4, 2)), 1.0, 20.0)
+    assert quadrant_split(s1)["pos_torque_pos_speed"]["time_s"] == 1.0
