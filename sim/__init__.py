@@ -5,7 +5,8 @@ module imports only from its own stage and the stages above it; only the command
 figures, and nothing imports the commands (enforced by tests/test_layering.py):
 
     core      errors, config, atomic,  - error hierarchy, strict TOML reading, atomic output,
-              streams                    block-wise streaming statistics
+              streams, paths,            block-wise streaming statistics, output paths and
+              plausible                  safe names, plausible ranges of every key
     parts     drivetrain, ratios,      - the drivetrain file and its motor and reducer parts,
               motor_constants            read once for the simulation and the checks
     robot     model, urdf, kinematics, - the robot description (pure numpy)
@@ -25,7 +26,7 @@ figures, and nothing imports the commands (enforced by tests/test_layering.py):
               drivetrain_check, ...      of a drivetrain
     sweeps    providers, metrics,      - many cases in parallel (process pool or Dask)
               spec, cases, ranking,
-              executors
+              executors, cluster
     figures   loads, check, motor,     - matplotlib figures (imported lazily)
               sweep
     commands  cli, <command>,          - thin command-line layer over the library

@@ -73,6 +73,7 @@ Writing is atomic: data go to a temporary file beside the target, renamed on suc
 
 from __future__ import annotations
 
+import math
 import os
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass
@@ -83,6 +84,7 @@ from typing import Any
 import h5py
 import numpy as np
 
+from sim.core.atomic import create_temp, forget_temp, same_file
 from sim.core.errors import RecordError
 from sim.core.streams import HighFrequencyShare, PowerSums, SignReversals
 
@@ -139,16 +141,29 @@ class RecordWriter:
                  compress_floats: bool = False,
                  life_exponents: Sequence[float] = DEFAULT_LIFE_EXPONENTS):
         self.path = Path(path)
-        self.path.parent.mkdir(parents=True, exist_ok=True)
-        self.tmp = self.path.with_name(f".{self.path.name}.{os.getpid()}.tmp")
+        # an exclusive new temporary file beside the target (never through a planted name or
+        # symlink; stale ones of killed runs removed), checked to be the file h5py then opens
+        fd, self.tmp = create_temp(self.path)
         self.joint_names = list(joint_names)
         self._compression = compression
         # float series are stored uncompressed by default: on a trot record gzip (level 4,
         # shuffle) saved 17 % of the size at 2.8x the write time (measured, 2026-12);
         # integer flags compress to almost nothing and stay gzip-compressed
         self._compress_floats = compress_floats
-        self._f = h5py.File(self.tmp, "w", libver=("earliest", "v110"), track_order=False)
+        try:
+            self._f = h5py.File(self.tmp, "w", libver=("earliest", "v110"), track_order=False)
+            if not same_file(fd, self.tmp):
+                self._f.close()
+                raise RecordError(str(self.tmp), None, "the temporary file gaitload created "
+                                  "(it was replaced while being opened)")
+        except BaseException:
+            self.tmp.unlink(missing_ok=True)
+            forget_temp(self.tmp)
+            raise
+        finally:
+            os.close(fd)
         self._done = False
+        self.replaced_existing = True  # False when finish() left an existing file in place
         for k, v in attrs.items():
             self._f.attrs[k] = v
         self._f.attrs["format_version"] = FORMAT_VERSION
@@ -269,7 +284,12 @@ class RecordWriter:
 
     # -- closing ----------------------------------------------------------------------------
     def finish(self, status: str, detail: str = "", **attrs: Any) -> Path:
-        """Write histograms, summary and status, close and rename into place."""
+        """Write histograms, summary and status, close and rename into place.
+
+        An ``interrupted`` record never replaces a file already at the target (a completed
+        record of an earlier run stays): it goes to :func:`partial_path` of the target
+        instead, and ``replaced_existing`` is False. The path written is returned.
+        """
         if status not in STATUSES:
             raise ValueError(f"status must be one of {STATUSES}")
         f = self._f
@@ -316,9 +336,14 @@ class RecordWriter:
         for name, value in attrs.items():
             f.attrs[name] = value
         f.close()
-        os.replace(self.tmp, self.path)
+        target = self.path
+        if status == "interrupted" and os.path.lexists(target):
+            target = partial_path(self.path)
+            self.replaced_existing = False
+        os.replace(self.tmp, target)
+        forget_temp(self.tmp)
         self._done = True
-        return self.path
+        return target
 
     def abort(self) -> None:
         """Close and delete the temporary file (nothing is left behind)."""
@@ -326,6 +351,7 @@ class RecordWriter:
             self._f.close()
         finally:
             self.tmp.unlink(missing_ok=True)
+            forget_temp(self.tmp)
             self._done = True
 
     def __enter__(self) -> RecordWriter:
@@ -335,6 +361,13 @@ class RecordWriter:
                  tb: TracebackType | None) -> None:
         if not self._done:
             self.abort()
+
+
+def partial_path(path: str | Path) -> Path:
+    """Where an interrupted run's record goes when a file is already at ``path``:
+    ``<stem>.interrupted<suffix>`` beside it."""
+    p = Path(path)
+    return p.with_name(f"{p.stem}.interrupted{p.suffix or '.h5'}")
 
 
 @dataclass(frozen=True)
@@ -350,6 +383,299 @@ class JointSummary:
     peak_speed_rad_s: float
     saturated_s: float
     duration_s: float
+
+
+# -- checking a record read from a file ------------------------------------------------------
+# Records are shared between people: every item a reader uses is checked when the record is
+# opened (RunRecord), so a missing attribute or dataset, a wrong type or shape, a hostile name
+# or a link into another file is one RecordError naming the record and the item, never a
+# KeyError or ValueError later on. Names that reach paths and titles follow
+# sim.core.paths.NAME_PATTERN.
+
+_MAX_OBJECTS = 100_000  # a record of 12 joints holds about 200; more is not a run record
+_HIST_SETS = ("time_s", "revolutions")
+_HIST_MOMENTS = ("torque_revolutions_nm", "torque_time_nm_s")
+_SUMMARY_KEYS = ("peak_torque_nm", "peak_motor_side_torque_nm", "rms_torque_nm",
+                 "mean_torque_nm", "peak_speed_rad_s", "saturated_s", "duration_s")
+_ROOT_NUMBERS = ("planned_s", "simulated_s", "total_mass_kg", "record_start_s", "steps")
+_LOAD_TORQUES = ("torque_nm", "gearbox_torque_nm")
+
+
+def _plain(v: Any) -> Any:
+    if isinstance(v, bytes):
+        return v.decode("utf-8", "replace")
+    if isinstance(v, np.ndarray) and v.dtype.kind in "OSU":
+        return [x.decode("utf-8", "replace") if isinstance(x, bytes) else str(x)
+                for x in v.reshape(-1)]
+    if isinstance(v, np.generic):
+        return v.item()
+    return v
+
+
+def _read_plain_attrs(f: h5py.File, path: str, group: str) -> dict[str, Any]:
+    """Attributes of ``group`` ("" for the root) as plain Python values."""
+    out: dict[str, Any] = {}
+    node = f[group] if group else f
+    try:
+        for k in node.attrs:
+            out[k] = _plain(node.attrs[k])
+    except (OSError, ValueError, TypeError, KeyError) as exc:
+        raise RecordError(path, f"/{group} attributes", f"readable attributes ({exc})") from None
+    return out
+
+
+def _is_number(v: Any) -> bool:
+    return isinstance(v, int | float | np.integer | np.floating) and not isinstance(v, bool)
+
+
+def _check_version(f: h5py.File, path: str) -> int:
+    try:
+        ver = f.attrs.get("format_version")
+    except (OSError, ValueError, TypeError) as exc:
+        raise RecordError(path, "format_version", f"a readable attribute ({exc})") from None
+    if ver is None:
+        raise RecordError(path, "format_version", "a gaitload run record (attribute missing)")
+    ver = _plain(ver)
+    if not (_is_number(ver) and float(ver).is_integer()):
+        raise RecordError(path, "format_version", "an integer format version", ver)
+    if int(ver) not in READABLE_VERSIONS:
+        raise RecordError(path, "format_version", "format version "
+                          + " or ".join(str(v) for v in READABLE_VERSIONS), int(ver))
+    return int(ver)
+
+
+def _check_links(f: h5py.File, path: str) -> None:
+    """Only hard links, no external or virtual storage: a record never reads another file."""
+    count = 0
+
+    def walk(group: h5py.Group, prefix: str) -> None:
+        nonlocal count
+        for name in group:
+            count += 1
+            full = f"{prefix}{name}"
+            if count > _MAX_OBJECTS:
+                raise RecordError(path, None, f"a run record (more than {_MAX_OBJECTS} objects)")
+            link = group.get(name, getlink=True)
+            if not isinstance(link, h5py.HardLink):
+                raise RecordError(path, full, "an object stored in the record (it is a "
+                                  f"{type(link).__name__} to somewhere else)")
+            obj = group.get(name)
+            if isinstance(obj, h5py.Group):
+                walk(obj, full + "/")
+            elif isinstance(obj, h5py.Dataset):
+                if obj.is_virtual or obj.external:
+                    raise RecordError(path, full, "data stored in the record (it points to "
+                                      "data in another file)")
+            else:
+                raise RecordError(path, full, "a group or dataset")
+
+    try:
+        walk(f, "")
+    except RecordError:
+        raise
+    except (OSError, ValueError, TypeError, KeyError) as exc:
+        raise RecordError(path, None, f"a readable HDF5 layout ({exc})") from None
+
+
+def _dataset(f: h5py.File, path: str, name: str, ndim: int | None = None,
+             shape: tuple[int | None, ...] | None = None,
+             required: bool = True) -> h5py.Dataset | None:
+    """The numeric dataset ``name``, checked for kind and shape (None entries match any)."""
+    if name not in f:
+        if required:
+            raise RecordError(path, name, "this dataset in the record (missing)")
+        return None
+    ds = f[name]
+    if not isinstance(ds, h5py.Dataset):
+        raise RecordError(path, name, "a dataset (it is a group)")
+    if ds.dtype.kind not in "fiub":
+        raise RecordError(path, name, "a numeric dataset", str(ds.dtype))
+    want = shape if shape is not None else None
+    if ndim is not None and ds.ndim != ndim:
+        raise RecordError(path, name, f"a dataset of {ndim} dimension(s)", tuple(ds.shape))
+    if want is not None and (len(want) != ds.ndim or any(
+            w is not None and w != g for w, g in zip(want, ds.shape, strict=True))):
+        shown = tuple("n" if w is None else w for w in want)
+        raise RecordError(path, name, f"shape {shown}", tuple(ds.shape))
+    return ds
+
+
+def _small_finite(ds: h5py.Dataset, path: str, name: str) -> np.ndarray:
+    """Read a small (histogram-sized) dataset and check its values are finite."""
+    if ds.size > 50_000_000:
+        raise RecordError(path, name, "a histogram of at most 5e7 bins", int(ds.size))
+    try:
+        a = np.asarray(ds[()], float)
+    except (OSError, ValueError, TypeError) as exc:
+        raise RecordError(path, name, f"a readable dataset ({exc})") from None
+    if not np.isfinite(a).all():
+        raise RecordError(path, name, "finite values (it holds NaN or infinity)")
+    return a
+
+
+def _check_root(attrs: dict[str, Any], path: str) -> None:
+    from sim.core.paths import NAME_RULE, is_safe_name
+
+    if "status" not in attrs:
+        raise RecordError(path, "status", "this root attribute (missing)")
+    if attrs["status"] not in STATUSES:
+        raise RecordError(path, "status", "one of " + ", ".join(STATUSES), attrs["status"])
+    names = attrs.get("joint_names")
+    if names is None:
+        raise RecordError(path, "joint_names", "this root attribute (missing)")
+    if isinstance(names, str) or not isinstance(names, list) or not names:
+        raise RecordError(path, "joint_names", "a non-empty list of joint names",
+                          type(names).__name__)
+    legs = attrs.get("leg_names", [])
+    if isinstance(legs, str) or not isinstance(legs, list):
+        raise RecordError(path, "leg_names", "a list of leg names", type(legs).__name__)
+    for key, values in (("joint_names", names), ("leg_names", legs)):
+        for i, n in enumerate(values):
+            if not is_safe_name(n):
+                raise RecordError(path, f"{key}[{i}]", NAME_RULE, str(n)[:100])
+    if len(set(names)) != len(names):
+        raise RecordError(path, "joint_names", "each joint named once", names)
+    for key in ("time_step_s", "sample_period_s"):
+        v = attrs.get(key)
+        if v is None and key == "time_step_s":
+            raise RecordError(path, key, "this root attribute (missing)")
+        if v is not None and not (_is_number(v) and math.isfinite(v) and 0 < v <= 1.0):
+            raise RecordError(path, key, "a time step in seconds, > 0 and <= 1", v)
+    dec = attrs.get("decimation", 1)
+    if not (_is_number(dec) and float(dec).is_integer() and 1 <= dec <= 10**9):
+        raise RecordError(path, "decimation", "an integer >= 1", dec)
+    if attrs.get("load_torque", "torque_nm") not in _LOAD_TORQUES:
+        raise RecordError(path, "load_torque", "one of " + ", ".join(_LOAD_TORQUES),
+                          attrs.get("load_torque"))
+    for key in _ROOT_NUMBERS:
+        v = attrs.get(key)
+        if v is not None and not (_is_number(v) and math.isfinite(v) and v >= 0):
+            raise RecordError(path, key, "a finite number >= 0", v)
+    for key in ("status_detail", "scenario_toml", "model_toml", "tool_version"):
+        if key in attrs and not isinstance(attrs[key], str):
+            raise RecordError(path, key, "a text attribute", type(attrs[key]).__name__)
+    for key in ("scenario_toml", "model_toml"):
+        if attrs.get(key):
+            import tomllib
+
+            try:
+                tomllib.loads(attrs[key])
+            except tomllib.TOMLDecodeError as exc:
+                raise RecordError(path, key, f"the resolved TOML text ({exc})") from None
+
+
+def _check_joint(f: h5py.File, path: str, j: str, version: int) -> None:
+    g = f"histograms/{j}"
+    te = _small_finite(_dataset(f, path, f"{g}/torque_edges_nm", 1), path,
+                       f"{g}/torque_edges_nm")
+    se = _small_finite(_dataset(f, path, f"{g}/speed_edges_rad_s", 1), path,
+                       f"{g}/speed_edges_rad_s")
+    for name, e in (("torque_edges_nm", te), ("speed_edges_rad_s", se)):
+        if e.size < 2 or not (np.diff(e) > 0).all():
+            raise RecordError(path, f"{g}/{name}", "at least two increasing bin edges")
+    shape = (te.size - 1, se.size - 1)
+    for name in _HIST_SETS:
+        a = _small_finite(_dataset(f, path, f"{g}/{name}", shape=shape), path,
+                          f"{g}/{name}")
+        if (a < 0).any():
+            raise RecordError(path, f"{g}/{name}", "values >= 0")
+    for name in _HIST_MOMENTS:
+        ds = _dataset(f, path, f"{g}/{name}", shape=shape, required=False)
+        if ds is not None:
+            _small_finite(ds, path, f"{g}/{name}")
+    hattrs = _read_plain_attrs(f, path, g)
+    if "overflow_s" in hattrs and not (_is_number(hattrs["overflow_s"])
+                                       and math.isfinite(hattrs["overflow_s"])):
+        raise RecordError(path, f"{g} attribute overflow_s", "a finite number",
+                          hattrs["overflow_s"])
+    sg = f"summary/{j}"
+    if sg not in f or not isinstance(f[sg], h5py.Group):
+        raise RecordError(path, sg, "this group in the record (missing)")
+    sa = _read_plain_attrs(f, path, sg)
+    for k in _SUMMARY_KEYS:
+        if k not in sa:
+            raise RecordError(path, f"{sg} attribute {k}", "this attribute (missing)")
+        if not (_is_number(sa[k]) and math.isfinite(sa[k])):
+            raise RecordError(path, f"{sg} attribute {k}", "a finite number", sa[k])
+    if "power_exponents" in sa:
+        pe = np.atleast_1d(np.asarray(sa["power_exponents"]))
+        tp = np.atleast_1d(np.asarray(sa.get("torque_power_angle", [])))
+        ok = (pe.dtype.kind in "fiu" and tp.dtype.kind in "fiu" and pe.shape == tp.shape
+              and pe.ndim == 1 and np.isfinite(pe).all() and (pe > 0).all()
+              and np.isfinite(tp).all() and _is_number(sa.get("abs_angle_rad"))
+              and math.isfinite(sa["abs_angle_rad"]))
+        if not ok:
+            raise RecordError(path, f"{sg} attributes power_exponents, torque_power_angle, "
+                              "abs_angle_rad", "two lists of equal length of finite numbers "
+                              "and a finite number")
+    qg = f"quality/{j}"
+    if qg in f:
+        for k, v in _read_plain_attrs(f, path, qg).items():
+            if not _is_number(v):
+                raise RecordError(path, f"{qg} attribute {k}", "a number", v)
+
+
+def _check_series(f: h5py.File, attrs: dict[str, Any], path: str) -> None:
+    """Series of one length per group: /time_s and what is under /joints, /feet, /base;
+    /steps on its own length."""
+    n = None
+    if "time_s" in f:
+        n = _dataset(f, path, "time_s", 1).shape[0]  # type: ignore[union-attr]
+    widths = {"force_n": 3, "position_m": 3, "orientation_xyzw": 4, "velocity_m_s": 3,
+              "angular_velocity_rad_s": 3, "external_force_n": 3}
+    for top in ("joints", "feet", "base"):
+        if top not in f:
+            continue
+        if n is None:
+            raise RecordError(path, "time_s", f"this dataset (missing, although /{top} holds "
+                              "series)")
+        for name in _walk_datasets(f, top, path):
+            last = name.rsplit("/", 1)[-1]
+            w = widths.get(last)
+            _dataset(f, path, name, shape=(n,) if w is None else (n, w))
+    if "steps" in f:
+        m = None
+        for name in _walk_datasets(f, "steps", path):
+            ds = _dataset(f, path, name, 1)
+            m = ds.shape[0] if m is None else m  # type: ignore[union-attr]
+            _dataset(f, path, name, shape=(m,))
+    if "segments/name" in f:
+        from sim.core.paths import LABEL_RULE, label_problem
+
+        ds = f["segments/name"]
+        if not isinstance(ds, h5py.Dataset) or ds.dtype.kind not in "OS" or ds.ndim != 1:
+            raise RecordError(path, "segments/name", "a list of segment names")
+        for i, nm in enumerate(_plain(ds[()])):
+            if label_problem(nm):
+                raise RecordError(path, f"segments/name[{i}]", LABEL_RULE, nm[:100])
+    for top in ("events", "segments"):
+        if top in f:
+            for name in _walk_datasets(f, top, path):
+                ds = f[name]
+                if not isinstance(ds, h5py.Dataset) or ds.ndim != 1:
+                    raise RecordError(path, name, "a list (dataset of one dimension)")
+
+
+def _walk_datasets(f: h5py.File, top: str, path: str) -> list[str]:
+    out: list[str] = []
+    if not isinstance(f[top], h5py.Group):
+        raise RecordError(path, top, "a group")
+    f[top].visit(lambda nm: out.append(f"{top}/{nm}")
+                 if isinstance(f[f"{top}/{nm}"], h5py.Dataset) else None)
+    return out
+
+
+def _check_layout(f: h5py.File, attrs: dict[str, Any], path: str, version: int) -> None:
+    """Everything the readers use, present and of the right type and shape."""
+    _check_links(f, path)
+    _check_root(attrs, path)
+    for j in attrs["joint_names"]:
+        _check_joint(f, path, j, version)
+    _check_series(f, attrs, path)
+    if "quality" in f:
+        for k, v in _read_plain_attrs(f, path, "quality").items():
+            if not (_is_number(v) or isinstance(v, str)):
+                raise RecordError(path, f"quality attribute {k}", "a number or a text", v)
 
 
 def _fix_metadata_cache(f: h5py.File, size: int) -> None:
@@ -376,17 +702,14 @@ class RunRecord:
             self._f = h5py.File(self.path, "r")
         except OSError:
             raise RecordError(str(self.path), None, "an HDF5 run record written by gaitload") from None
-        _fix_metadata_cache(self._f, _READ_METADATA_CACHE_BYTES)
-        ver = self._f.attrs.get("format_version")
-        if ver is None:
+        try:
+            _fix_metadata_cache(self._f, _READ_METADATA_CACHE_BYTES)
+            self.format_version = _check_version(self._f, str(self.path))
+            self._attrs = _read_plain_attrs(self._f, str(self.path), "")
+            _check_layout(self._f, self._attrs, str(self.path), self.format_version)
+        except BaseException:
             self._f.close()
-            raise RecordError(str(self.path), "format_version",
-                              "a gaitload run record (attribute missing)")
-        if int(ver) not in READABLE_VERSIONS:
-            self._f.close()
-            raise RecordError(str(self.path), "format_version", "format version "
-                              + " or ".join(str(v) for v in READABLE_VERSIONS), int(ver))
-        self.format_version = int(ver)
+            raise
 
     # metadata
     @property
@@ -397,16 +720,7 @@ class RunRecord:
         return dict(self._attrs)
 
     def _read_attrs(self) -> dict[str, Any]:
-        out: dict[str, Any] = {}
-        for k, v in self._f.attrs.items():
-            if isinstance(v, bytes):
-                v = v.decode()
-            elif isinstance(v, np.ndarray) and v.dtype.kind in "OS":
-                v = [x.decode() if isinstance(x, bytes) else str(x) for x in v]
-            elif isinstance(v, np.generic):
-                v = v.item()
-            out[k] = v
-        return out
+        return _read_plain_attrs(self._f, str(self.path), "")
 
     @property
     def status(self) -> str:
@@ -448,9 +762,14 @@ class RunRecord:
         if name not in self._f:
             raise RecordError(str(self.path), name, "this dataset in the record (missing)")
         ds = self._f[name]
-        if ds.ndim == 0:
-            return np.asarray(ds[()])
-        return np.asarray(ds[start:stop])
+        if not isinstance(ds, h5py.Dataset):
+            raise RecordError(str(self.path), name, "a dataset (it is a group)")
+        try:
+            if ds.ndim == 0:
+                return np.asarray(ds[()])
+            return np.asarray(ds[start:stop])
+        except (OSError, ValueError, TypeError) as exc:
+            raise RecordError(str(self.path), name, f"a readable dataset ({exc})") from None
 
     def series(self, joint: str, quantity: str) -> np.ndarray:
         """``quantity`` is angle_rad, speed_rad_s, torque_nm, torque_command_nm or saturated."""
@@ -468,10 +787,26 @@ class RunRecord:
         for name in names:
             if name not in self._f:
                 raise RecordError(str(self.path), name, "this dataset in the record (missing)")
+        for name in names:
+            if not isinstance(self._f[name], h5py.Dataset) or self._f[name].ndim < 1:
+                raise RecordError(str(self.path), name, "a series dataset")
         lengths = {int(self._f[nm].shape[0]) for nm in names}
         if len(lengths) > 1:
             raise RecordError(str(self.path), ", ".join(names), "series of one length")
         n = lengths.pop() if lengths else 0
+        chunks = self._chunks(names, n, rows, reuse)
+        while True:
+            try:
+                item = next(chunks)
+            except StopIteration:
+                return
+            except (OSError, ValueError, TypeError) as exc:  # a damaged or hostile file
+                raise RecordError(str(self.path), ", ".join(names),
+                                  f"readable series ({exc})") from None
+            yield item
+
+    def _chunks(self, names: Sequence[str], n: int, rows: int, reuse: bool
+                ) -> Iterator[tuple[int, list[np.ndarray]]]:
         if not reuse:
             for start in range(0, n, rows):
                 yield start, [np.asarray(self._f[nm][start:start + rows]) for nm in names]
@@ -529,11 +864,7 @@ class RunRecord:
         """Attributes of group ``name`` as plain values, or None if the record has none."""
         if name not in self._f:
             return None
-        out: dict[str, Any] = {}
-        for k, v in self._f[name].attrs.items():
-            out[k] = v.decode() if isinstance(v, bytes) else (
-                v.item() if isinstance(v, np.generic) else v)
-        return out
+        return _read_plain_attrs(self._f, str(self.path), name)
 
     # every-step duty series (joint torque, reducer output torque, joint speed)
     @property

@@ -144,7 +144,7 @@ def test_materials_reject_misspelt_key_and_missing_source(tmp_path):
     with pytest.raises(InputError) as info:
         load_materials(bad)
     assert info.value.key == "pla.poisson_ration"
-    bad = write(tmp_path, '[x]\ndescription = "x"\nyoungs_modulus_pa = { value = 1.0 }\n',
+    bad = write(tmp_path, '[x]\ndescription = "x"\nyoungs_modulus_pa = { value = 1.0e9 }\n',
                 "m2.toml")
     with pytest.raises(InputError) as info:
         load_materials(bad)

@@ -11,14 +11,16 @@ is flagged), 2 on bad input (nothing is written then).
 from __future__ import annotations
 
 import argparse
-import math
 import sys
 from pathlib import Path
 
 from sim.checks.drivetrain_check import check_drivetrain, write_disc_profiles
 from sim.checks.reducer import CheckSettings
 from sim.checks.report import exit_code, render_table, to_json, what_if_lines
+from sim.core.atomic import output_batch
+from sim.core.config import check_option_number
 from sim.core.errors import InputError
+from sim.core.paths import check_output_dir
 
 HELP = "check reducers, motors and supply against the spectra"
 
@@ -53,17 +55,20 @@ def add_arguments(parser: argparse.ArgumentParser) -> None:
 
 
 def settings_from_args(args: argparse.Namespace) -> CheckSettings:
-    if not (args.required_life_h > 0 and math.isfinite(args.required_life_h)):
-        raise InputError("--required-life-h", None, "a positive number of hours",
-                         args.required_life_h)
-    if not (args.safety_factor >= 1.0 and math.isfinite(args.safety_factor)):
-        raise InputError("--safety-factor", None, "a number >= 1", args.safety_factor)
+    check_option_number(args.required_life_h, "--required-life-h", 0.0, 1e15,
+                        "a life in hours of use", lo_open=True)
+    check_option_number(args.safety_factor, "--safety-factor", 1.0, 100.0, "a safety factor")
     if not 90.0 <= args.reliability < 100.0:
         raise InputError("--reliability", None, "a percentage in [90, 100)", args.reliability)
+    if args.mission_h is not None:
+        check_option_number(args.mission_h, "--mission-h", 0.0, 1e6, "a mission in hours",
+                            lo_open=True)
     return CheckSettings(args.required_life_h, args.safety_factor, args.reliability)
 
 
 def execute(args: argparse.Namespace) -> int:
+    if args.plot:
+        check_output_dir(args.plot, "--plot")
     if args.what_if and not args.drivetrain:
         raise InputError("--what-if", None, "a --drivetrain FILE to compare with the simulated "
                          "drivetrain")
@@ -77,7 +82,7 @@ def execute(args: argparse.Namespace) -> int:
         text = ("WHAT-IF: drivetrain differs from the simulated one; duty NOT re-simulated ("
                 + ", ".join(sorted({d["key"] for d in result.report.what_if})) + ")"
                 if result.report.what_if else None)
-        with banner(text):
+        with output_batch(), banner(text):  # every figure and profile, or none
             plot_utilisation(result.report, out / "reducer_utilisation.svg")
             write_disc_profiles(result.drivetrain, out)
             if result.motors is not None:

@@ -10,8 +10,10 @@ from __future__ import annotations
 import argparse
 import ctypes
 import importlib
+import signal
 import sys
-from collections.abc import Sequence
+import threading
+from collections.abc import Callable, Sequence
 
 from sim import __version__
 from sim.core.errors import GaitloadError
@@ -36,7 +38,9 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"gaitload {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name, (modname, help_text) in COMMANDS.items():
-        p = sub.add_parser(name, help=help_text, description=help_text)
+        # no -h of its own: ``gaitload run --help`` is left to the command's full parser
+        # (built in :func:`main` once the command is known), which lists every option
+        p = sub.add_parser(name, help=help_text, description=help_text, add_help=False)
         p.set_defaults(_module=modname)
         p.set_defaults(_needs_args=True)
         p.set_defaults(_name=name)
@@ -71,13 +75,40 @@ def keep_freed_memory() -> bool:
                 and mallopt(_M_TRIM_THRESHOLD, _TRIM_THRESHOLD_BYTES))
 
 
+def _raise_interrupt(signum: int, frame: object) -> None:
+    raise KeyboardInterrupt(f"signal {signal.Signals(signum).name}")
+
+
+def _terminate_as_interrupt() -> Callable[[], None]:
+    """Make SIGTERM (and SIGHUP) behave like Ctrl-C while a command runs, so every clean-up
+    done on Ctrl-C (temporary files removed, an interrupted record kept beside a completed
+    one, sweep workers stopped) is done on them too; return the function that restores the
+    previous handlers. Does nothing outside the main thread (signals go to it only)."""
+    if threading.current_thread() is not threading.main_thread():
+        return lambda: None
+    old = {}
+    for sig in (signal.SIGTERM, getattr(signal, "SIGHUP", None)):
+        # a signal ignored on purpose (nohup ignores SIGHUP) stays ignored
+        if sig is not None and signal.getsignal(sig) is not signal.SIG_IGN:
+            old[sig] = signal.signal(sig, _raise_interrupt)
+
+    def restore() -> None:
+        for sig, handler in old.items():
+            signal.signal(sig, handler)
+
+    return restore
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run gaitload with ``argv`` (without the program name); return the exit code."""
     argv = list(sys.argv[1:] if argv is None else argv)
     keep_freed_memory()
     parser = build_parser()
     # first pass: find the command, then let its module add its own arguments
-    known, _ = parser.parse_known_args(argv)
+    try:
+        known, _ = parser.parse_known_args(argv)
+    except SystemExit as exc:  # an unknown command, --version or --help
+        return int(exc.code or 0)
     if not getattr(known, "command", None):
         parser.print_help()
         return 2
@@ -90,14 +121,19 @@ def main(argv: Sequence[str] | None = None) -> int:
         args = sub.parse_args(argv[idx + 1:])
     except SystemExit as exc:  # argparse error or --help
         return int(exc.code or 0)
+    restore = _terminate_as_interrupt()
     try:
         return int(module.execute(args))
     except GaitloadError as exc:
         print(f"gaitload {known._name}: error: {exc}", file=sys.stderr)
         return exc.exit_code
-    except KeyboardInterrupt:
-        print(f"gaitload {known._name}: interrupted", file=sys.stderr)
+    except KeyboardInterrupt as exc:  # Ctrl-C, or SIGTERM (see _terminate_as_interrupt)
+        detail = getattr(exc, "detail", "")
+        print(f"gaitload {known._name}: interrupted" + (f": {detail}" if detail else ""),
+              file=sys.stderr)
         return 130
+    finally:
+        restore()
 
 
 def entry() -> None:

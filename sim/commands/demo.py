@@ -13,6 +13,7 @@ import shlex
 from pathlib import Path
 
 from sim.core.errors import InputError
+from sim.core.paths import check_output_dir
 
 HELP = "run the demo set on the invented demo robot"
 
@@ -61,7 +62,7 @@ def execute(args: argparse.Namespace) -> int:
         raise InputError(str(scen_dir), None,
                          "the scenarios/ folder of a gaitload source checkout "
                          "(install with: pip install -e .)")
-    out = Path(args.directory)
+    out = check_output_dir(args.directory, "DIR")
     out.mkdir(parents=True, exist_ok=True)
     summary: dict[str, dict] = {}
     for name, _, _ in DEMO_SET:

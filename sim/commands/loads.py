@@ -14,6 +14,8 @@ import argparse
 import sys
 from pathlib import Path
 
+from sim.core.atomic import output_batch
+from sim.core.paths import check_output_dir
 from sim.loads.report import (
     DEFAULT_EXPONENTS,
     JointLoads,
@@ -104,6 +106,9 @@ def _text(report: LoadsReport) -> str:
 
 
 def execute(args: argparse.Namespace) -> int:
+    for option, folder in (("--csv", args.csv), ("--plot", args.plot)):
+        if folder:
+            check_output_dir(folder, option)
     report = loads_report(args.inputs, args.mix, args.joints,
                           tuple(args.exponent) if args.exponent else DEFAULT_EXPONENTS,
                           args.level, args.hold_speed, args.hold_torque, args.sn,
@@ -111,10 +116,11 @@ def execute(args: argparse.Namespace) -> int:
     if args.csv or args.plot:  # one second pass over the torque for both
         report = with_cycle_matrices(report)
     written: list[Path] = []
-    if args.csv:
-        written += write_csv(report, args.csv)
-    if args.plot:
-        written += write_plots(report, args.plot)
+    with output_batch():  # the CSV files and the figures, all or none
+        if args.csv:
+            written += write_csv(report, args.csv)
+        if args.plot:
+            written += write_plots(report, args.plot)
     if args.json:
         sys.stdout.write(report.to_json())
         for line in report.quality.flag_lines() if report.quality else []:

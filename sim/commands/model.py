@@ -11,6 +11,7 @@ from typing import Any
 
 from sim.core.atomic import write_text_atomic
 from sim.core.config import parse_override
+from sim.core.paths import check_output_file
 from sim.robot.model import load_model
 from sim.robot.urdf import build_urdf
 
@@ -36,6 +37,8 @@ def write_atomic(path: str | Path, text: str) -> Path:
 
 
 def execute(args: argparse.Namespace) -> int:
+    if args.urdf:
+        check_output_file(args.urdf, "--urdf")
     over = dict(parse_override(t) for t in args.overrides)
     model = load_model(args.model, over)
     if args.scale_to_mass is not None:

@@ -75,12 +75,14 @@ def _dt_study(args: argparse.Namespace, out: Path) -> int:
 
 
 def execute(args: argparse.Namespace) -> int:
+    from sim.core.paths import check_output_file
     from sim.scenario.scenario_file import load_scenario
 
+    out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
+    check_output_file(args.output or out, "-o")
     scn = load_scenario(args.scenario, args.overrides)  # bad input fails before any output
     from sim.engine.runner import run
 
-    out = Path(args.output) if args.output else Path(Path(args.scenario).stem + ".h5")
     if args.dt_study:
         return _dt_study(args, out)
     result = run(scn, out, progress=not args.json)
@@ -93,8 +95,10 @@ def execute(args: argparse.Namespace) -> int:
         for line in screen.flag_lines():
             print(line, file=sys.stderr)
     else:
+        reached = scn.duration_s if result.simulated_s is None else result.simulated_s
         print(f"record: {result.record}  status: {result.status}  "
-              f"mass: {result.total_mass_kg:.2f} kg  simulated: {scn.duration_s:g} s")
+              f"mass: {result.total_mass_kg:.2f} kg  simulated: {reached:.6g} s of "
+              f"{scn.duration_s:g} s planned")
         d = drive_summary(scn)
         print(f"drivetrain: {d['file']}  rotor inertia: {d['rotor_inertia']}  "
               f"reducer losses: {'on' if d['losses'] else 'off'}")

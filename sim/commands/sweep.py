@@ -27,6 +27,12 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     where.add_argument("--cluster", metavar="ADDRESS",
                        help="run the cases on an existing dask.distributed scheduler, "
                             "e.g. tcp://10.0.0.5:8786")
+    p.add_argument("--tls-ca-file", metavar="FILE",
+                   help="with --cluster tls://...: the certificate authority to trust")
+    p.add_argument("--tls-cert", metavar="FILE", help="with --cluster tls://...: this "
+                   "client's certificate")
+    p.add_argument("--tls-key", metavar="FILE", help="with --cluster tls://...: this "
+                   "client's private key")
     p.add_argument("--shared-output", action="store_true",
                    help="with --cluster: the workers see DIR at the same path and write the "
                         "records there (default: records are sent back to this machine)")
@@ -37,26 +43,36 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def execute(args: argparse.Namespace) -> int:
+    from sim.core.atomic import output_batch
     from sim.core.errors import InputError
+    from sim.core.paths import check_output_dir
     from sim.sweeps.cases import jsonable
+    from sim.sweeps.cluster import cluster_security, parse_cluster_address, plain_tcp_warning
     from sim.sweeps.executors import run_sweep
     from sim.sweeps.ranking import CAUTION, format_table, write_outputs
     from sim.sweeps.spec import load_sweep
 
     if args.workers is not None and args.workers < 1:
         raise InputError("--workers", None, "a worker count of at least 1", args.workers)
-    sweep = load_sweep(args.sweep)  # every input error is raised here, before any output
     out = Path(args.output) if args.output else Path(Path(args.sweep).stem + "_sweep")
+    check_output_dir(out, "-o")
+    addr = parse_cluster_address(args.cluster) if args.cluster else None
+    security = cluster_security(args.tls_ca_file, args.tls_cert, args.tls_key, addr)
+    if addr is not None and (warning := plain_tcp_warning(addr)):
+        print(f"gaitload sweep: {warning}", file=sys.stderr)
+    sweep = load_sweep(args.sweep)  # every input error is raised here, before any output
     t0 = time.perf_counter()
-    result = run_sweep(sweep, out, workers=args.workers, cluster=args.cluster,
-                       shared_output=args.shared_output, progress=True)
+    result = run_sweep(sweep, out, workers=args.workers,
+                       cluster=None if addr is None else str(addr),
+                       shared_output=args.shared_output, progress=True, security=security)
     elapsed = time.perf_counter() - t0
-    csv_path, json_path = write_outputs(result)
     plots: list[Path] = []
-    if not args.no_plots:
-        from sim.figures.sweep import write_plots
+    with output_batch():  # the table, the summary and the plots, all or none
+        csv_path, json_path = write_outputs(result)
+        if not args.no_plots:
+            from sim.figures.sweep import write_plots
 
-        plots = write_plots(result, out / "plots")
+            plots = write_plots(result, out / "plots")
     summary = result.summary()
     print(f"gaitload sweep: {len(result.cases)} cases, {result.n_run} run, {result.n_reused} "
           f"reused, {elapsed:.1f} s", file=sys.stderr)

@@ -23,6 +23,7 @@ from pathlib import Path
 from typing import Any
 
 from sim.core.errors import InputError
+from sim.core.plausible import INT64_MAX, plausibility_error
 
 Spec = Mapping[str, Any]  # values are Field or nested Spec
 
@@ -107,6 +108,8 @@ def _check_value(value: Any, f: Field, file: str | None, key: str) -> Any:
             for i, v in enumerate(value):
                 if not _type_ok(v, f.item):
                     raise InputError(file, f"{key}[{i}]", f.expectation(), v)
+                if f.item is float and not math.isfinite(v):
+                    raise InputError(file, f"{key}[{i}]", "a finite number", v)
                 out.append(float(v) if f.item is float else v)
             value = out
     if f.choices is not None and value not in f.choices:
@@ -121,6 +124,11 @@ def _check_value(value: Any, f: Field, file: str | None, key: str) -> Any:
             bad |= v > f.max if f.max_inclusive else v >= f.max
         if bad:
             raise InputError(file, key, f.expectation(), value)
+    for i, v in enumerate(nums):
+        why = plausibility_error(key, v)
+        if why:
+            where = f"{key}[{i}]" if f.kind is list else key
+            raise InputError(file, where, why, v)
     if f.check is not None:
         msg = f.check(value)
         if msg:
@@ -134,6 +142,7 @@ def validate(data: Mapping[str, Any], spec: Spec, file: str | Path | None = None
     fname = None if file is None else str(file)
     if not isinstance(data, Mapping):
         raise InputError(fname, prefix.rstrip(".") or None, "a table", data)
+    check_numbers(data, fname, prefix.rstrip("."))
     out: dict[str, Any] = {}
     for key in data:
         if key not in spec:
@@ -152,6 +161,40 @@ def validate(data: Mapping[str, Any], spec: Spec, file: str | Path | None = None
             sub = data.get(key, {})
             out[key] = validate(sub, f, file, full + ".")
     return out
+
+
+def check_numbers(value: Any, file: str | None, key: str) -> None:
+    """Every number anywhere in ``value`` (tables, lists, nested) is finite and every integer
+    fits in 64 bits: TOML allows ``nan``, ``inf`` and integers of any size, none of which a
+    gaitload key can use (HDF5 attributes and numpy hold 64-bit integers)."""
+    if isinstance(value, bool):
+        return
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            raise InputError(file, key or None, "a finite number", value)
+    elif isinstance(value, int):
+        if not -INT64_MAX - 1 <= value <= INT64_MAX:
+            raise InputError(file, key or None, "an integer that fits in 64 bits (at most "
+                             f"{INT64_MAX})", value if abs(value) < 10**40 else "a huge integer")
+    elif isinstance(value, Mapping):
+        for k, v in value.items():
+            check_numbers(v, file, f"{key}.{k}" if key else str(k))
+    elif isinstance(value, list | tuple):
+        for i, v in enumerate(value):
+            check_numbers(v, file, f"{key}[{i}]")
+
+
+def check_option_number(value: Any, option: str, lo: float, hi: float, what: str,
+                        lo_open: bool = False) -> float:
+    """A number given on the command line: finite and within ``[lo, hi]`` (``(lo, hi]`` with
+    ``lo_open``), else an :class:`InputError` naming the option and ``what`` it means."""
+    ok = isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value)
+    if ok:
+        ok = (value > lo if lo_open else value >= lo) and value <= hi
+    if not ok:
+        raise InputError(option, None, f"{what}: a number {'>' if lo_open else '>='} {lo:g} "
+                         f"and <= {hi:g}", value)
+    return float(value)
 
 
 def set_dotted(data: dict[str, Any], dotted: str, value: Any) -> None:

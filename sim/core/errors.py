@@ -59,3 +59,18 @@ class SimulationFailure(GaitloadError):
 
     def __reduce__(self):
         return (type(self), (self.status, self.detail, self.record))
+
+
+class Interrupted(KeyboardInterrupt):
+    """Ctrl-C or SIGTERM stopped a command (exit code 130); ``detail`` says what was kept and
+    where (an interrupted run's partial record, say). A ``KeyboardInterrupt``, so code that
+    cleans up on Ctrl-C cleans up on it too."""
+
+    exit_code = 130
+
+    def __init__(self, detail: str = ""):
+        self.detail = detail
+        super().__init__(detail)
+
+    def __reduce__(self):
+        return (type(self), (self.detail,))

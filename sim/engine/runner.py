@@ -30,7 +30,7 @@ from typing import Any
 import numpy as np
 
 from sim import JOINT_NAMES, LEGS, __version__
-from sim.core.errors import SimulationFailure
+from sim.core.errors import Interrupted, SimulationFailure
 from sim.drive.envelope import Envelope
 from sim.engine.clamp import make_clamp
 from sim.engine.disturb import make_disturbances
@@ -306,8 +306,12 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
         except KeyboardInterrupt:
             rec.flush()
             w.put("segments/name", [s[0] for s in seg_table] or [""])
-            w.finish("interrupted", f"interrupted at t = {loop.i_global * dt:.3f} s")
-            raise
+            at = f"interrupted at t = {loop.i_global * dt:.3f} s"
+            partial = w.finish("interrupted", at, simulated_s=loop.i_global * dt)
+            kept = (f"; the record already at {out_path} was left in place"
+                    if not w.replaced_existing else "")
+            raise Interrupted(f"run {at}; partial record (status 'interrupted') written to "
+                              f"{partial}{kept}") from None
         finally:
             if loop.bar is not None:
                 loop.bar.close()
@@ -317,7 +321,8 @@ def _run(scn: Scenario, eng: Engine, out_path: Path, progress: bool, clock) -> R
     return RunResult(loop.status, loop.detail, path, _joint_figures(path), eng.total_mass_kg,
                      loop.i_global / elapsed if elapsed > 0 else 0.0, run_figs,
                      [{"name": n, "kind": k, "start_s": a, "end_s": b, **f}
-                      for (n, k, a, b), f in zip(seg_table, seg_figs, strict=True)])
+                      for (n, k, a, b), f in zip(seg_table, seg_figs, strict=True)],
+                     simulated_s=loop.i_global * dt, planned_s=scn.duration_s)
 
 
 def _finish(w: RecordWriter, eng: Engine, loop: _Loop,

@@ -24,10 +24,13 @@ class RunResult:
     # locomotion figures over the recorded span (see RunSummary); per segment in ``segments``
     summary: dict[str, float | None] = field(default_factory=dict)
     segments: list[dict[str, Any]] = field(default_factory=list)
+    simulated_s: float | None = None  # time the run reached (below planned_s if it ended early)
+    planned_s: float | None = None
 
     def to_json(self) -> dict[str, Any]:
-        return {"status": self.status, "record": str(self.record), "joints": self.joints,
-                "summary": self.summary, "segments": self.segments}
+        return {"status": self.status, "detail": self.detail, "record": str(self.record),
+                "simulated_s": self.simulated_s, "planned_s": self.planned_s,
+                "joints": self.joints, "summary": self.summary, "segments": self.segments}
 
 
 # a lift-off this soon after a touchdown is a bounce (common practice: several control

@@ -36,6 +36,7 @@ from pathlib import Path
 
 from sim.core.config import Field, load_toml, validate
 from sim.core.errors import InputError
+from sim.core.paths import LABEL_RULE, label_problem
 from sim.record import RunRecord, open_record
 
 TOP_SPEC = {
@@ -49,10 +50,10 @@ DUTY_SPEC = {
     "record": Field(str, required=True, doc="run record path, relative to the mix file"),
     "hours_per_day": Field(float, min=0.0, max=24.0, doc="hours per day in this duty"),
     "share": Field(float, min=0.0, max=1.0, doc="share of the top-level hours_per_day"),
-    "name": Field(str),
+    "name": Field(str, check=label_problem),
 }
 EVENT_SPEC = {
-    "name": Field(str, required=True),
+    "name": Field(str, required=True, check=label_problem),
     "per_day": Field(float, required=True, min=0.0, doc="occurrences per day"),
     "record": Field(str, doc="run record of one occurrence, relative to the mix file"),
 }
@@ -171,6 +172,9 @@ def load_mix(path: str | Path) -> UsageMix:
     entries: list[MixEntry] = []
     for i, (d, h) in enumerate(zip(duties, hours, strict=True)):
         rp = base / d["record"]
+        if not d["name"] and label_problem(rp.stem):
+            raise InputError(fname, f"duty[{i}].name", "a name, since the record's file name is "
+                             f"not {LABEL_RULE}", rp.stem[:100])
         dur = _open_checked(rp, fname, f"duty[{i}].record")
         entries.append(MixEntry(d["name"] or rp.stem, rp, "duty", dur, h * 3600.0 / dur, h))
     counts: dict[str, float] = {}

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from sim.core.errors import InputError
+from sim.core.config import check_option_number
 from sim.loads.damage import (
     BasquinCurve,
     CycleMatrix,
@@ -226,6 +226,7 @@ def duty_loads(mix: UsageMix, joints: str | Iterable[str] | None = None,
              _teq_note(spectra, exps)]
     if not mix.daily:
         notes.append("Records stand for themselves: 'per day' means one pass of the records.")
+    notes += failed_run_notes([e.path for e in mix.entries])
     levels = {j: (tuple(levels_nm) if levels_nm is not None
                   else tuple(round(f * spectra[j].peak_torque_nm, 6)
                              for f in DEFAULT_LEVEL_SHARES)) for j in names}
@@ -324,6 +325,25 @@ def with_cycle_matrices(report: LoadsReport, bins: int = CYCLE_MATRIX_BINS,
     return dataclasses.replace(report, joints=joints)
 
 
+def failed_run_notes(paths: Sequence[str | Path]) -> list[str]:
+    """One note per record whose run did not complete (read with ``--allow-failed``): what
+    happened, when, and how much of the planned run the record covers."""
+    out = []
+    for p in dict.fromkeys(str(x) for x in paths):
+        with open_record(p) as rec:
+            a = rec.attrs
+            if a["status"] == "completed":
+                continue
+            reached = a.get("simulated_s")
+            planned = a.get("planned_s")
+            span = ("" if reached is None else f"; the run reached t = {float(reached):.3f} s"
+                    + ("" if planned is None else f" of the planned {float(planned):.3f} s"))
+            out.append(f"NOT A VALID DUTY CYCLE: {p}: the run {a['status']} "
+                       f"({a.get('status_detail', '')}){span}; its figures describe only the "
+                       "time before that")
+    return out
+
+
 def loads_report(records: Sequence[str | Path] = (), mix: str | Path | None = None,
                  joints: str | Iterable[str] | None = None,
                  exponents: Sequence[str] = DEFAULT_EXPONENTS,
@@ -342,10 +362,17 @@ def loads_report(records: Sequence[str | Path] = (), mix: str | Path | None = No
     """
     for e in exponents:
         parse_exponent(e)
-    if hold_speed_rad_s < 0 or hold_torque_nm < 0:
-        raise InputError("--hold-speed/--hold-torque", None, "numbers >= 0")
+    check_option_number(hold_speed_rad_s, "--hold-speed", 0.0, 1e4, "a joint speed in rad/s")
+    check_option_number(hold_torque_nm, "--hold-torque", 0.0, 1e6, "a torque in N m")
+    for lv in levels_nm or ():
+        check_option_number(lv, "--level", -1e6, 1e6, "a torque level in N m")
+    check_option_number(sn_cutoff_nm, "--sn-cutoff", 0.0, 1e7, "a torque range in N m")
     curve = None
     if sn:
+        check_option_number(sn[0], "--sn RANGE_NM", 0.0, 1e7, "a torque range in N m",
+                            lo_open=True)
+        check_option_number(sn[1], "--sn CYCLES", 0.0, 1e15, "a number of cycles", lo_open=True)
+        check_option_number(sn[2], "--sn K", 1.0, 50.0, "the slope exponent of the S-N line")
         curve = BasquinCurve(sn[0], sn[1], sn[2], sn_cutoff_nm)
     usage = usage_from_inputs(records, mix)
     return duty_loads(usage, joints, exponents, levels_nm, hold_speed_rad_s, hold_torque_nm,

@@ -17,6 +17,7 @@ from typing import Any
 from sim import JOINT_KINDS
 from sim.core.config import Field, dump_toml, load_toml, parse_override, set_dotted, validate
 from sim.core.errors import InputError
+from sim.core.paths import label_problem
 from sim.robot.model import RobotModel, model_from_data
 
 POS: dict[str, Any] = {"min": 0.0, "min_inclusive": False}
@@ -117,7 +118,8 @@ SCENARIO_SPEC: dict[str, Any] = {
 
 SEGMENT_BASE = {
     "kind": Field(str, "segment kind", required=True, choices=SEGMENT_KINDS),
-    "name": Field(str, "label of the segment in the record", default=""),
+    "name": Field(str, "label of the segment in the record", default="",
+                  check=label_problem),
     "duration_s": Field(float, "segment duration", required=True, **POS),
 }
 

@@ -40,7 +40,11 @@ from sim.sweeps.metrics import compute_metrics
 from sim.sweeps.providers import CaseContext
 from sim.sweeps.spec import Sweep
 
-CASE_FORMAT = "gaitload sweep case 3"  # 2: quality screen; 3: resolved drivetrain inputs
+# 2: with the quality screen of the record; 3: resolved drivetrain inputs; 4: with the SHA-256
+# of the record's bytes, checked before the case is reused (a truncated or edited record is
+# rerun, not reused)
+CASE_FORMAT = "gaitload sweep case 4"
+RECORD_NAME = "record.h5"
 FINAL_STATUSES = ("completed", "fell", "diverged", "bad_input", "infeasible")
 FAILED_STATUSES = ("fell", "diverged", "bad_input", "infeasible", "error")
 
@@ -152,6 +156,9 @@ def run_case(spec: Mapping[str, Any], out_dir: str | None = None) -> dict[str, A
         except GaitloadError as exc:
             out.update(status="error", reason=str(exc))
             return out
+        except Exception as exc:  # any failure of one case fails that case, not the sweep
+            out.update(status="error", reason=f"the simulation raised {exc!r}")
+            return out
         out.update(status=res.status, reason=res.detail)
         if res.status == "completed":
             from sim.loads.quality import screen_record
@@ -166,6 +173,8 @@ def run_case(spec: Mapping[str, Any], out_dir: str | None = None) -> dict[str, A
                 out["metrics"] = compute_metrics(spec["metrics"], ctx)
             except GaitloadError as exc:
                 out.update(status="error", reason=str(exc))
+            except Exception as exc:  # a metric provider's failure fails this case only
+                out.update(status="error", reason=f"computing the metrics raised {exc!r}")
         if out_dir is None and rec.is_file():
             out["record_bytes"] = rec.read_bytes()
     out["pid"] = os.getpid()
@@ -201,22 +210,54 @@ def load_case_result(out_dir: Path, key: str) -> dict[str, Any] | None:
         return None
     if not isinstance(doc, dict) or doc.get("format") != CASE_FORMAT or doc.get("key") != key:
         return None
-    if doc.get("status") not in FINAL_STATUSES:
+    if doc.get("status") not in FINAL_STATUSES or not _well_formed(doc):
         return None
-    if doc.get("record") and not (d / doc["record"]).is_file():
-        return None
+    if doc.get("record") is not None:
+        # only the case's own record, unchanged since it was stored
+        if doc["record"] != RECORD_NAME or not (d / RECORD_NAME).is_file():
+            return None
+        if doc.get("record_sha256") != file_sha256(d / RECORD_NAME):
+            return None
     return doc
+
+
+def _well_formed(doc: Mapping[str, Any]) -> bool:
+    """The fields the ranking reads have the types it expects (an edited file is rerun)."""
+    metrics, q = doc.get("metrics"), doc.get("quality")
+    if not isinstance(doc.get("reason", ""), str) or not isinstance(metrics, dict):
+        return False
+    if not all(v is None or (isinstance(v, int | float) and not isinstance(v, bool))
+               for v in metrics.values()):
+        return False
+    if q is not None and not (isinstance(q, dict) and isinstance(q.get("flagged", False), bool)
+                              and isinstance(q.get("reasons", []), list)
+                              and all(isinstance(r, str) for r in q.get("reasons", []))):
+        return False
+    return True
+
+
+def file_sha256(path: Path) -> str | None:
+    """SHA-256 (hex) of the bytes of ``path``, or None if it cannot be read."""
+    h = hashlib.sha256()
+    try:
+        with open(path, "rb") as fh:
+            for block in iter(lambda: fh.read(1 << 20), b""):
+                h.update(block)
+    except OSError:
+        return None
+    return h.hexdigest()
 
 
 def store_case(out_dir: Path, case: Case, res: Mapping[str, Any]) -> dict[str, Any]:
     """Write a case's record (if shipped back) and its result.json; return the stored doc."""
     d = out_dir / "cases" / case.key
     if "record_bytes" in res:
-        write_bytes_atomic(d / "record.h5", res["record_bytes"])
-    has_record = (d / "record.h5").is_file() and res["status"] not in ("bad_input",)
+        write_bytes_atomic(d / RECORD_NAME, res["record_bytes"])
+    has_record = (d / RECORD_NAME).is_file() and res["status"] not in ("bad_input",)
     doc = {"format": CASE_FORMAT, "key": case.key, "status": res["status"],
            "reason": res.get("reason", ""), "params": case.params,
-           "metrics": res.get("metrics", {}), "record": "record.h5" if has_record else None,
+           "metrics": res.get("metrics", {}), "record": RECORD_NAME if has_record else None,
+           "record_sha256": file_sha256(d / RECORD_NAME) if has_record else None,
            "quality": res.get("quality"),
            "inputs": None if case.spec is None else {
                k: case.spec[k] for k in ("scenario_toml", "model_toml",

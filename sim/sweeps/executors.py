@@ -16,7 +16,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from sim.core.errors import GaitloadError, InputError
+from sim.core.errors import InputError, Interrupted
 from sim.sweeps.cases import load_case_result, resolve_cases, run_case, store_case
 from sim.sweeps.ranking import SweepResult, case_result, rank_cases
 from sim.sweeps.spec import Sweep
@@ -46,13 +46,65 @@ def _mp_context() -> Any:
     return ctx
 
 
+# how often a worker looks whether the sweep that started it still runs
+WATCH_PERIOD_S = 0.5
+
+
+def _alive(pid: int) -> bool:
+    """True while process ``pid`` runs (a zombie, killed but not yet reaped, is not)."""
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as fh:
+            return fh.read().rsplit(b")", 1)[1].split()[0] not in (b"Z", b"X")
+    except (OSError, IndexError):
+        return True
+
+
+def _stop_worker(*_: object) -> None:
+    """End this worker now, removing its temporary files first (no half record is left)."""
+    from sim.core.atomic import remove_own_temps
+
+    remove_own_temps()
+    os._exit(143)
+
+
+def _watch_sweep(pid: int) -> None:
+    import time
+
+    while _alive(pid):
+        time.sleep(WATCH_PERIOD_S)
+    _stop_worker()
+
+
+def init_worker(sweep_pid: int) -> None:
+    """Set up a local worker process: Ctrl-C in the terminal reaches every process of the
+    group, so a worker ignores SIGINT and leaves stopping to the sweep; SIGTERM (sent by the
+    sweep when it is interrupted) ends it at once without leftovers; and a watcher thread
+    ends it within :data:`WATCH_PERIOD_S` of the sweep's death (``kill -9``), so no worker
+    keeps running, and the fork server and resource tracker, which live as long as a worker
+    holds their pipes, end with it."""
+    import signal
+    import threading
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, _stop_worker)
+    threading.Thread(target=_watch_sweep, args=(sweep_pid,), name="gaitload-sweep-watch",
+                     daemon=True).start()
+
+
 def _execute_local(specs: list[dict[str, Any]], out_dir: Path, workers: int,
                    done: Callable[[dict[str, Any]], None]) -> None:
     from concurrent.futures import ProcessPoolExecutor, as_completed
     from concurrent.futures.process import BrokenProcessPool
 
     with ProcessPoolExecutor(max_workers=max(1, min(workers, len(specs))),
-                             mp_context=_mp_context()) as pool:
+                             mp_context=_mp_context(), initializer=init_worker,
+                             initargs=(os.getpid(),)) as pool:
         futs = {pool.submit(run_case, s, str(out_dir)): s for s in specs}
         try:
             for f in as_completed(futs):
@@ -61,13 +113,21 @@ def _execute_local(specs: list[dict[str, Any]], out_dir: Path, workers: int,
                 except BrokenProcessPool:
                     done({"key": futs[f]["key"], "status": "error", "metrics": {},
                           "reason": "the worker process died (out of memory or a crash)"})
+                except Exception as exc:  # raised outside run_case's own handling
+                    done({"key": futs[f]["key"], "status": "error", "metrics": {},
+                          "reason": f"the case raised {exc!r}"})
         except BaseException:
+            # interrupted (Ctrl-C, SIGTERM) or failed: stop the running cases now rather
+            # than wait for them; each worker removes its temporary files as it ends
+            for proc in list(getattr(pool, "_processes", {}).values()):
+                if proc.is_alive():
+                    proc.terminate()
             pool.shutdown(wait=True, cancel_futures=True)
             raise
 
 
 def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shared: bool,
-                  done: Callable[[dict[str, Any]], None]) -> None:
+                  done: Callable[[dict[str, Any]], None], security: Any = None) -> None:
     try:
         from dask.distributed import Client, as_completed
     except ImportError:
@@ -75,9 +135,10 @@ def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shar
                          "'gaitload[cluster]')") from None
     own = not isinstance(cluster, Client)
     try:
-        client = Client(cluster, timeout=10) if own else cluster
-    except OSError as exc:
-        raise GaitloadError(f"cannot reach the Dask scheduler at {cluster}: {exc}") from None
+        client = (Client(str(cluster), timeout=10, security=security) if own else cluster)
+    except (OSError, TimeoutError, ValueError, TypeError) as exc:
+        raise InputError("--cluster", None, "a Dask scheduler that can be reached "
+                         f"({type(exc).__name__}: {exc})", str(cluster)) from None
     try:
         target = str(out_dir) if shared else None
         futs = client.map(run_case, specs, out_dir=target, pure=False)
@@ -96,7 +157,7 @@ def _execute_dask(specs: list[dict[str, Any]], out_dir: Path, cluster: Any, shar
 
 def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
               cluster: Any = None, shared_output: bool = False,
-              progress: bool = False) -> SweepResult:
+              progress: bool = False, security: Any = None) -> SweepResult:
     """Run the missing cases of ``sweep`` into ``out_dir`` and rank all of them.
 
     ``workers``: local process pool size (default: the CPUs available). ``cluster``: a Dask
@@ -140,9 +201,14 @@ def run_sweep(sweep: Sweep, out_dir: str | Path, workers: int | None = None,
     try:
         if specs:
             if cluster is not None:
-                _execute_dask(specs, out_dir, cluster, shared_output, done)
+                _execute_dask(specs, out_dir, cluster, shared_output, done, security)
             else:
                 _execute_local(specs, out_dir, workers or available_cpus(), done)
+    except KeyboardInterrupt:
+        finished = sum(1 for k in todo if k in stored)
+        raise Interrupted(f"sweep stopped with {finished} of {len(specs)} cases to run done "
+                          f"(stored in {out_dir / 'cases'}; a rerun into {out_dir} runs only "
+                          "the rest)") from None
     finally:
         if bar is not None:
             bar.close()

@@ -41,6 +41,7 @@ from typing import Any
 from sim import JOINT_KINDS, JOINT_NAMES
 from sim.core.config import Field, load_toml, validate
 from sim.core.errors import InputError
+from sim.core.paths import label_problem
 from sim.sweeps.metrics import Constraint, parse_constraint, parse_metric
 from sim.sweeps.providers import PROVIDERS
 
@@ -77,7 +78,7 @@ SWEEP_SPEC: dict[str, Any] = {
 }
 
 PARAM_SPEC: dict[str, Any] = {
-    "name": Field(str, "label of the parameter", default=""),
+    "name": Field(str, "label of the parameter", default="", check=label_problem),
     "key": Field(str, "one --set key (robot. prefix for model keys), or 'drivetrain'",
                  default=""),
     "keys": Field(list, "several --set keys varied together", default=[], item=str),
