@@ -372,3 +372,27 @@ def test_mix_rainflow_equals_the_weighted_cycle_lists_taken_together(tmp_path):
                                                                             edges[1])
         assert cm.counts.sum() == pytest.approx(ref.total, rel=1e-14)
         assert cm.counts == pytest.approx(ref.matrix(*edges), rel=1e-13)
+
+
+def test_record_spectrum_carries_the_every_step_sums(tmp_path):
+    # the spectrum of a record holds the exact every-step sums, recomputed here with numpy from
+    # the same signal on the writer's time grid t_k = k dt: sum |T|^3 |w| dt, sum |w| dt,
+    # sum T^2 dt, and the in-bin torque x time moments (numpy.histogram2d)
+    from tests.loads_records import SE, TE
+    dt, n = 0.001, 1000
+    t = np.arange(n) * dt
+    tq = lambda t: 12.0 * np.sin(2 * math.pi * 3 * t) + 4.0  # noqa: E731
+    w = lambda t: 5.0 * np.cos(2 * math.pi * 2 * t)  # noqa: E731
+    p = write_record(tmp_path / "r.h5", n * dt, dt, {"fl_knee": tq}, {"fl_knee": w})
+    with open_record(p) as rec:
+        sp = spectrum_from_record(rec, "fl_knee")
+    x, v = tq(t), w(t)
+    assert sp.joint == "fl_knee" and sp.source == "histogram"
+    assert sp.abs_angle_rad == pytest.approx(np.sum(np.abs(v)) * dt, rel=1e-12)
+    assert sp.power_sums[3.0] == pytest.approx(np.sum(np.abs(x)**3 * np.abs(v)) * dt, rel=1e-12)
+    assert sp.torque_sq_time_nm2_s == pytest.approx(np.sum(x**2) * dt, rel=1e-9)
+    mt = np.histogram2d(x, v, bins=[TE, SE], weights=x * dt)[0]
+    np.testing.assert_allclose(sp.torque_time_nm_s, mt, rtol=1e-9, atol=1e-12)
+    # exact route differs from the bin route here (several torques per bin)
+    exact = (sp.power_sums[3.0] / sp.abs_angle_rad) ** (1 / 3)
+    assert equivalent_torque_nm(sp, 3.0) == pytest.approx(exact, rel=1e-12)

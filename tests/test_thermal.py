@@ -232,3 +232,41 @@ def test_doubling_sample_rate_keeps_temperatures(tmp_path: Path):
     pa = check_motors(a, d, _supply()).to_json()["joints"]["fl_knee"]["winding_peak_c"]
     pb = check_motors(b, d, _supply()).to_json()["joints"]["fl_knee"]["winding_peak_c"]
     assert pa == pytest.approx(pb, abs=0.05)
+
+
+# -- step weight (written to kill surviving mutants, docs/mutation.md) -----------------------
+
+@pytest.mark.parametrize("x", [0.0, 5e-9, -5e-9, 2e-8, 0.3, -4.0, 12.0])
+def test_exact_step_weight_is_expm1_over_rate(x):
+    # weight of a constant input over a step h in x' = s x + u: (e^{s h} - 1)/s, tending to h
+    # as s -> 0 (integral of e^{s t} from 0 to h); reference numpy.expm1
+    h = 0.02
+    s = np.array([x / h])
+    got = th._phi(s, np.expm1(s * h), h)[0]
+    want = h if x == 0.0 else float(np.expm1(x) / s[0])
+    assert got == pytest.approx(want, rel=1e-13)
+
+
+def test_steady_rise_with_housing_heat_and_copper_feedback_solves_the_node_balance():
+    # steady state of the two-node network: at the winding P_w = (theta_w - theta_h)/R_wh, at
+    # the housing P_w + P_h = theta_h/R_ha, with P_w = P_cu + beta theta_w (copper resistance
+    # rising with temperature); solved here as a linear system with scipy.linalg.solve
+    r_wh, r_ha = 0.5, 1.5
+    for p_cu, p_h, beta in ((20.0, 7.0, 0.0), (20.0, 7.0, 0.3), (0.0, 11.0, 0.2)):
+        a = np.array([[1.0 / r_wh - beta, -1.0 / r_wh], [-beta, 1.0 / r_ha]])
+        rhs = np.array([p_cu, p_cu + p_h])
+        want = scipy.linalg.solve(a, rhs)
+        got = NET.steady_rise_k(p_cu, p_h, beta)
+        assert got == (pytest.approx(want[0], rel=1e-12), pytest.approx(want[1], rel=1e-12))
+    # runaway exactly at beta (R_wh + R_ha) = 1: no steady state
+    with pytest.raises(ValueError, match="thermal runaway"):
+        NET.steady_rise_k(10.0, 0.0, 1.0 / (r_wh + r_ha))
+
+
+def test_copper_resistance_refuses_a_negative_length_or_empty_area_only():
+    # R = rho L / A (IEC 60028): zero length is zero resistance, not an error
+    assert th.copper_resistance_ohm(0.0, 1e-6, 20.0) == 0.0
+    assert th.copper_resistance_ohm(1.0, 1e-6, 20.0) > 0.0
+    for length, area in ((-1.0, 1e-6), (1.0, 0.0), (1.0, -1e-6)):
+        with pytest.raises(ValueError, match="length_m must be >= 0 and area_m2 > 0"):
+            th.copper_resistance_ohm(length, area, 20.0)
