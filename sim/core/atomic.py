@@ -63,14 +63,19 @@ def file_mode() -> int:
     return 0o666 & ~mask
 
 
-def _pid_alive(pid: int) -> bool:
+def process_alive(pid: int) -> bool:
+    """True while process ``pid`` runs (a zombie, killed but not yet reaped, is not)."""
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
         return False
     except PermissionError:
         return True
-    return True
+    try:
+        with open(f"/proc/{pid}/stat", "rb") as fh:
+            return fh.read().rsplit(b")", 1)[1].split()[0] not in (b"Z", b"X")
+    except (OSError, IndexError):
+        return True
 
 
 def remove_stale_temps(target: str | Path) -> list[Path]:
@@ -83,7 +88,7 @@ def remove_stale_temps(target: str | Path) -> list[Path]:
         m = _TEMP_TAG.fullmatch(os.path.basename(name)[len(head):])
         if m is None or int(m["pid"]) == os.getpid():
             continue
-        if _pid_alive(int(m["pid"])):
+        if process_alive(int(m["pid"])):
             continue
         with contextlib.suppress(OSError):
             os.unlink(name)

@@ -475,20 +475,16 @@ def resolve_drivetrain(path: str | Path, overrides: Mapping[str, Any] | None = N
     for j in joint_names:
         for k in order:
             who, _, rest = k.partition(".")
-            if who not in (j, j.split("_")[1]) or rest not in ("reducer_file", "motor_file"):
+            if who not in (j, j.split("_")[1]):
                 continue
-            role = rest[:-5]
-            chosen.setdefault(j, {})[role] = (_part_path(base, str(who_over[k]), "--set",
-                                                         "robot.parts." + k), "robot.parts." + k)
-        if "current_limit_a" in {k.partition(".")[2] for k in order
-                                 if k.split(".")[0] in (j, j.split("_")[1])}:
-            for k in order:
-                who, _, rest = k.partition(".")
-                if who in (j, j.split("_")[1]) and rest == "current_limit_a":
-                    val = who_over[k]
-                    if isinstance(val, bool) or not isinstance(val, int | float) or val <= 0:
-                        raise InputError("--set", "robot.parts." + k, "a current > 0 A", val)
-                    chosen.setdefault(j, {})["current_limit_a"] = float(val)
+            if rest in ("reducer_file", "motor_file"):
+                path = _part_path(base, str(who_over[k]), "--set", "robot.parts." + k)
+                chosen.setdefault(j, {})[rest[:-5]] = (path, "robot.parts." + k)
+            elif rest == "current_limit_a":
+                val = who_over[k]
+                if isinstance(val, bool) or not isinstance(val, int | float) or val <= 0:
+                    raise InputError("--set", "robot.parts." + k, "a current > 0 A", val)
+                chosen.setdefault(j, {})["current_limit_a"] = float(val)
     raw: dict[Path, dict[str, Any]] = {}
     parts: dict[str, PartTable] = {}
     ids: dict[tuple[str, tuple[str, ...]], str] = {}

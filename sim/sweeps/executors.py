@@ -50,21 +50,6 @@ def _mp_context() -> Any:
 WATCH_PERIOD_S = 0.5
 
 
-def _alive(pid: int) -> bool:
-    """True while process ``pid`` runs (a zombie, killed but not yet reaped, is not)."""
-    try:
-        os.kill(pid, 0)
-    except ProcessLookupError:
-        return False
-    except PermissionError:
-        return True
-    try:
-        with open(f"/proc/{pid}/stat", "rb") as fh:
-            return fh.read().rsplit(b")", 1)[1].split()[0] not in (b"Z", b"X")
-    except (OSError, IndexError):
-        return True
-
-
 def _stop_worker(*_: object) -> None:
     """End this worker now, removing its temporary files first (no half record is left)."""
     from sim.core.atomic import remove_own_temps
@@ -76,7 +61,9 @@ def _stop_worker(*_: object) -> None:
 def _watch_sweep(pid: int) -> None:
     import time
 
-    while _alive(pid):
+    from sim.core.atomic import process_alive
+
+    while process_alive(pid):
         time.sleep(WATCH_PERIOD_S)
     _stop_worker()
 
